@@ -1,0 +1,104 @@
+"""Named preset flows.
+
+Families are built (symbolic work, code generation) on first request and kept,
+so every :class:`~flowkit.flows.base.Flow` of one preset shares compiled kernels.
+"""
+
+from __future__ import annotations
+
+import difflib
+import threading
+from typing import Callable
+
+from flowkit.errors import FlowkitError
+from flowkit.flows.base import Flow, FlowFamily
+
+
+def _builders() -> dict[str, tuple[Callable[[], FlowFamily], str]]:
+    from flowkit.flows import periodic, sphere, systems
+
+    return {
+        "stf": (sphere.stf_family, "stretch-twist-fold Stokes flow in the sphere + rotation about y"),
+        "hill": (sphere.hill_family, "Hill's spherical vortex with optional swirl"),
+        "abc": (periodic.abc_family, "ABC (Arnold-Beltrami-Childress) flow, 2*pi-periodic"),
+        "roberts": (periodic.roberts_family, "Roberts cell flow, 2*pi-periodic, z-independent"),
+        "circular": (periodic.circular_family, "circularly polarized time-periodic dynamo flow"),
+        "double-gyre": (systems.double_gyre_family, "planar time-periodic double gyre"),
+        "lorenz": (systems.lorenz_family, "Lorenz system (validation)"),
+        "rossler": (systems.rossler_family, "Rossler system (validation)"),
+    }
+
+
+#: Extra presets registered by other modules (e.g. discrete maps): name -> (builder, summary).
+EXTRA: dict[str, tuple[Callable[[], FlowFamily], str]] = {}
+
+_FAMILIES: dict[str, FlowFamily] = {}
+_LOCK = threading.Lock()
+
+
+def preset_names() -> list[str]:
+    """Names of every preset flow."""
+    return sorted({**_builders(), **EXTRA})
+
+
+def preset_summary() -> dict[str, str]:
+    """One-line summary of each preset."""
+    table = {**_builders(), **EXTRA}
+    return {k: table[k][1] for k in sorted(table)}
+
+
+def family(name: str) -> FlowFamily:
+    """The (shared) family of a preset; raise a helpful error for unknown names."""
+    table = {**_builders(), **EXTRA}
+    if name not in table:
+        close = difflib.get_close_matches(name, table, n=1)
+        hint = f" Did you mean '{close[0]}'?" if close else ""
+        raise FlowkitError(f"unknown flow '{name}'.{hint} Available flows: {', '.join(sorted(table))}")
+    with _LOCK:
+        if name not in _FAMILIES:
+            fam = table[name][0]()
+            fam.structure.setdefault("recipe", {"preset": name})
+            _FAMILIES[name] = fam
+        return _FAMILIES[name]
+
+
+def flow(name: str, **params: float) -> Flow:
+    """A preset flow with parameters.
+
+    Parameters
+    ----------
+    name : str
+        Preset name (see :func:`preset_names`).
+    **params : float
+        Parameter values; the rest keep their defaults.
+
+    Examples
+    --------
+    >>> import flowkit
+    >>> f = flowkit.flow("stf", rotation=0.3)
+    >>> f.velocity([[0.1, 0.2, 0.3]]).shape
+    (1, 3)
+    """
+    if not isinstance(name, str):
+        raise FlowkitError(f"flow name must be a string; got {type(name).__name__}")
+    return Flow(family(name), params)
+
+
+def rebuild_flow(recipe: dict, params: dict) -> Flow:
+    """Rebuild a flow from the recipe in its provenance (used for pickling)."""
+    if "preset" in recipe:
+        return flow(recipe["preset"], **params)
+    if "lamb" in recipe:
+        from flowkit.flows.sphere import lamb_flow
+
+        coeffs = dict(recipe["lamb"])
+        coeffs.update(params)
+        return lamb_flow(coeffs, name=recipe.get("name", "lamb"))
+    if "custom" in recipe:
+        from flowkit.flows.custom import custom_flow
+
+        pars = dict(recipe["params"])
+        pars.update(params)
+        return custom_flow(recipe["custom"], pars, domain=recipe["domain"], period=recipe["period"],
+                           name=recipe["name"], kind=recipe["kind"])
+    raise FlowkitError(f"cannot rebuild a flow from recipe {recipe!r}")
