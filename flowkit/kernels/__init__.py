@@ -30,6 +30,8 @@ from flowkit._version import __version__
 #: Template modules compiled for every family (names inside must be unique).
 TEMPLATES: list[str] = [
     "field",
+    "steppers",
+    "batch",
 ]
 
 _STUB_MARK = "# flowkit:stub"

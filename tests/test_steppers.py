@@ -1,0 +1,124 @@
+"""Runge–Kutta kernels and the batch driver, against exact solutions and scipy."""
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+
+import flowkit
+from flowkit.errors import FlowkitError
+from flowkit.integrate.batch import IntegratorSettings, integrate_states
+from flowkit.integrate.outcomes import Outcome
+from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5, work_array
+
+
+def test_dop853_tableau_order_conditions():
+    # Order conditions of the quadrature part (sum b_i c_i^(k-1) = 1/k, k = 1..8) and
+    # row sums of A equal c (Solving ODEs I, Springer 1993, section II.1): exact identities.
+    for k in range(1, 9):
+        assert abs(DOP_B @ DOP_C[:12] ** (k - 1) - 1.0 / k) < 1e-14
+    np.testing.assert_allclose(DOP_A[:12, :12].sum(axis=1), DOP_C[:12], atol=1e-14)
+    np.testing.assert_allclose(DOP_A[13:, :].sum(axis=1), DOP_C[13:], atol=1e-14)
+    # error estimators are differences of two consistent weight sets
+    assert abs(DOP_E5.sum()) < 1e-14 and abs(DOP_E3.sum()) < 1e-14
+
+
+@pytest.fixture(scope="module")
+def rotation_flow():
+    # rigid rotation u = (-y, x, 0): exact solution is a rotation by angle t
+    return flowkit.custom_flow(["-y", "x", "0"])
+
+
+def exact_rotation(y0, t):
+    c, s = np.cos(t), np.sin(t)
+    return np.stack([c * y0[:, 0] - s * y0[:, 1], s * y0[:, 0] + c * y0[:, 1], y0[:, 2]], axis=1)
+
+
+def test_dop853_meets_tolerance_on_exact_rotation(rotation_flow):
+    y0 = np.array([[1.0, 0.0, 0.5], [0.3, -0.7, 0.0]])
+    res = integrate_states(rotation_flow, y0, 0.0, 20.0, IntegratorSettings(rtol=1e-12, atol=1e-14))
+    assert np.all(res.outcome == Outcome.FINISHED)
+    np.testing.assert_allclose(res.states, exact_rotation(y0, 20.0), atol=1e-10)
+    back = integrate_states(rotation_flow, res.states, 20.0, 0.0, IntegratorSettings(rtol=1e-12, atol=1e-14))
+    np.testing.assert_allclose(back.states, y0, atol=1e-10)
+
+
+def test_rk4_converges_at_fourth_order(rotation_flow):
+    y0 = np.array([[1.0, 0.0, 0.0]])
+    errs = []
+    for h in (0.1, 0.05):
+        res = integrate_states(rotation_flow, y0, 0.0, 5.0, IntegratorSettings(method="rk4", step=h))
+        errs.append(np.abs(res.states - exact_rotation(y0, 5.0)).max())
+    assert 14.0 < errs[0] / errs[1] < 18.0  # 2^4 = 16 (common practice, no source)
+
+
+def test_dense_output_matches_exact_solution_inside_a_step(rotation_flow):
+    k = rotation_flow.kernels
+    y = np.array([1.0, 0.0, 0.2])
+    W = work_array(3)
+    p = rotation_flow.params
+    k.rhs(0.0, y, p, W[0])
+    status, h, _ = k.dop853_advance(0.0, y, 0.4, p, 1e-13, 1e-15, np.inf, W)
+    assert status == 0
+    k.dop853_dense_prepare(0.0, h, y, p, W)
+    out = np.empty(3)
+    for theta in (0.0, 0.25, 0.61, 1.0):
+        k.dop853_dense_eval(theta, W, out, 3)
+        ref = exact_rotation(np.array([[1.0, 0.0, 0.2]]), theta * h)[0]
+        np.testing.assert_allclose(out, ref, atol=1e-12)
+
+
+def test_stf_trajectories_agree_with_scipy_dop853():
+    f = flowkit.flow("stf", rotation=0.3)
+    y0 = np.array([[0.1, 0.2, 0.3], [0.5, 0.1, -0.2], [-0.4, 0.3, 0.6]])
+    res = integrate_states(f, y0, 0.0, 5.0, IntegratorSettings(rtol=1e-12, atol=1e-14))
+    for i, seed in enumerate(y0):
+        ref = solve_ivp(lambda t, y: f.velocity(y[None])[0], (0, 5), seed, method="DOP853", rtol=1e-13, atol=1e-15)
+        np.testing.assert_allclose(res.states[i], ref.y[:, -1], atol=1e-9)
+
+
+def test_tangent_vectors_match_finite_differences_and_keep_volume():
+    f = flowkit.flow("abc")
+    x0 = np.array([1.0, 2.0, 3.0])
+    state = np.concatenate([x0, np.eye(3).T.ravel()])  # columns of the identity
+    T = 3.0
+    st = IntegratorSettings(rtol=1e-12, atol=1e-14)
+    J = integrate_states(f, state[None], 0.0, T, st).states[0, 3:].reshape(3, 3).T
+    d = 1e-5
+    fd = np.empty((3, 3))
+    for j in range(3):
+        e = np.zeros(3)
+        e[j] = d
+        ends = integrate_states(f, np.array([x0 + e, x0 - e]), 0.0, T, st).states
+        fd[:, j] = (ends[0] - ends[1]) / (2 * d)
+    np.testing.assert_allclose(J, fd, atol=1e-6 * np.abs(J).max())
+    # Liouville: det of the deformation gradient of a divergence-free flow is 1 (exact identity)
+    assert abs(np.linalg.det(J) - 1.0) < 1e-9
+
+
+def test_failed_trajectories_are_reported_and_the_rest_kept():
+    blow = flowkit.custom_flow(["x**2", "0", "0"], kind="system")  # x(t) = 1/(1 - t) from x=1
+    res = integrate_states(blow, np.array([[1.0, 0, 0], [-1.0, 0, 0]]), 0.0, 2.0)
+    assert res.outcome[0] in (Outcome.STEP_UNDERFLOW, Outcome.NON_FINITE)
+    assert res.outcome[1] == Outcome.FINISHED
+    assert abs(res.states[1, 0] - (-1.0 / 3.0)) < 1e-9  # x = -1/(1 + t) at t = 2
+    out = flowkit.custom_flow(["x", "y", "-2*z"], domain="ball")  # pushes orbits through r = 1
+    res = integrate_states(out, np.array([[0.5, 0, 0], [0, 0, 0.5]]), 0.0, 3.0)
+    assert res.outcome[0] == Outcome.LEFT_DOMAIN and res.outcome[1] == Outcome.FINISHED
+
+
+def test_results_do_not_depend_on_thread_count():
+    f = flowkit.flow("stf", rotation=0.5)
+    rng = np.random.default_rng(3)
+    seeds = rng.uniform(-0.5, 0.5, size=(16, 3))
+    a = integrate_states(f, seeds, 0.0, 4.0, threads=1)
+    b = integrate_states(f, seeds, 0.0, 4.0, threads=2)
+    assert np.array_equal(a.states, b.states) and np.array_equal(a.steps, b.steps)
+
+
+def test_bad_settings_are_refused():
+    with pytest.raises(FlowkitError, match="`rtol` must be a positive number"):
+        IntegratorSettings(rtol=0.0)
+    with pytest.raises(FlowkitError, match="`method` must be one of"):
+        IntegratorSettings(method="euler")
+    with pytest.raises(FlowkitError, match="`step` must be a positive number when method='rk4'"):
+        IntegratorSettings(method="rk4")
