@@ -61,14 +61,15 @@ def velocity_gradient_source(
     grads = [sp.diff(e, c) for e in exprs for c in COORDS]
     out = []
     for name, group in (("velocity", exprs), ("gradient", grads)):
-        lines, reduced = _body(group, params)
-        ret = ", ".join(_print(e) for e in reduced)
-        out.append("@njit(cache=CACHE)")
-        out.append(f"def {name}(x, y, z, t, p):")
-        out += lines
-        out.append(f"    return ({ret},)")
-        out.append("")
-    return "\n".join(out)
+        out += _function(name, group, params)
+    return "\n".join(out) + "\n" + splitting_source(exprs, params)
+
+
+def _function(name: str, exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> list[str]:
+    """Lines of one jitted function ``name(x, y, z, t, p)`` returning a tuple of ``exprs``."""
+    lines, reduced = _body(exprs, params)
+    ret = ", ".join(_print(e) for e in reduced)
+    return ["@njit(cache=CACHE)", f"def {name}(x, y, z, t, p):", *lines, f"    return ({ret},)", ""]
 
 
 def check_symbols(exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> None:
@@ -85,3 +86,68 @@ def check_symbols(exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> None
                 f"velocity component {i} uses unknown symbol(s) {bad}; use x, y, z, t "
                 f"or declare them in `params` (known: {', '.join(sorted(names))})"
             )
+
+
+# ---------------------------------------------------------------------------
+# Sub-fields of the volume-preserving splitting scheme
+# ---------------------------------------------------------------------------
+class SplitUnavailable(Exception):
+    """The field cannot be split into planar divergence-free parts (reason in the message)."""
+
+
+def split_fields(exprs: Sequence[sp.Expr]) -> tuple[tuple, tuple]:
+    """Split a divergence-free field f into two planar divergence-free fields.
+
+    f = a + b with a = (f1, -q, 0) and b = (0, f2 + q, f3), where q = int df1/dx dy
+    (Numer. Math. 71, 1995; Acta Numerica 11, 2002, 'Splitting methods'). ``a``
+    moves (x, y) with z frozen and has d a1/dx + d a2/dy = 0; ``b`` moves (y, z)
+    with x frozen and has d b2/dy + d b3/dz = div f = 0.
+
+    Returns
+    -------
+    ((a1, a2), (b2, b3))
+        The non-zero components of the two sub-fields.
+
+    Raises
+    ------
+    SplitUnavailable
+        If f is not divergence-free or sympy finds no closed-form antiderivative.
+    """
+    f1, f2, f3 = (sp.sympify(e) for e in exprs)
+    div = sp.expand(sum(sp.diff(e, c) for e, c in zip((f1, f2, f3), COORDS)))
+    if div != 0 and sp.simplify(div) != 0:
+        raise SplitUnavailable(f"the field is not divergence-free (div u = {div})")
+    dx = sp.expand(sp.diff(f1, X))
+    try:
+        q = sp.integrate(dx, Y) if dx.is_polynomial(Y) else sp.integrate(dx, Y, manual=True)
+    except Exception as exc:  # noqa: BLE001 - sympy raises many kinds; all mean "no antiderivative"
+        raise SplitUnavailable(f"sympy could not integrate d(u)/dx = {dx} over y ({exc})") from exc
+    if q.has(sp.Integral) or q.has(sp.Piecewise):
+        raise SplitUnavailable(f"d(u)/dx = {dx} has no closed-form antiderivative in y")
+    return (f1, -q), (f2 + q, f3)
+
+
+def _planar_with_jacobian(field: tuple, moving: tuple, frozen: sp.Symbol) -> list[sp.Expr]:
+    """(g_i, g_j, dg_i/dm_i, dg_i/dm_j, dg_j/dm_i, dg_j/dm_j, dg_i/dfrozen, dg_j/dfrozen)."""
+    gi, gj = field
+    mi, mj = moving
+    return [gi, gj, sp.diff(gi, mi), sp.diff(gi, mj), sp.diff(gj, mi), sp.diff(gj, mj),
+            sp.diff(gi, frozen), sp.diff(gj, frozen)]
+
+
+def splitting_source(exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> str:
+    """Source of the sub-fields used by the splitting kernel template.
+
+    Defines ``split_a(x, y, z, t, p)`` (the (x, y) part, z frozen) and
+    ``split_b(x, y, z, t, p)`` (the (y, z) part, x frozen), each returning the
+    8-tuple of :func:`_planar_with_jacobian`, and ``SPLIT_STATUS = "ok"``. When
+    the field cannot be split, only ``SPLIT_STATUS`` (the reason) is defined and
+    the template supplies NaN stand-ins that the Python wrapper refuses to run.
+    """
+    try:
+        a, b = split_fields(exprs)
+    except SplitUnavailable as exc:
+        return f"SPLIT_STATUS = {str(exc)!r}\n"
+    out = _function("split_a", _planar_with_jacobian(a, (X, Y), Z), params)
+    out += _function("split_b", _planar_with_jacobian(b, (Y, Z), X), params)
+    return "\n".join(out) + '\nSPLIT_STATUS = "ok"\n'

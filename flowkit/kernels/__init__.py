@@ -32,6 +32,7 @@ TEMPLATES: list[str] = [
     "field",
     "steppers",
     "batch",
+    "splitting",
 ]
 
 _STUB_MARK = "# flowkit:stub"
