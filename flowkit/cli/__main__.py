@@ -1,0 +1,7 @@
+"""``python -m flowkit.cli`` runs the command line."""
+
+import sys
+
+from flowkit.cli import main
+
+sys.exit(main())

@@ -1,0 +1,62 @@
+"""Measures a sweep can compute at each parameter point.
+
+Each measure is ``fn(flow, seed, **options) -> {"value": float, "stderr": float}``
+(plus optional extra keys), deterministic for a given seed. Measures import their
+analysis modules lazily so a worker only loads what it uses.
+"""
+
+from __future__ import annotations
+
+from typing import Callable
+
+import numpy as np
+
+from flowkit.flows.base import Flow
+
+
+def mean_ftle(flow: Flow, seed: int, particles: int = 64, time: float = 10.0, rtol: float = 1e-9) -> dict:
+    """Ensemble mean of the finite-time largest Lyapunov exponent over random particles.
+
+    Each particle carries its deformation gradient (variational equations with the
+    exact gradient); FTLE = log(largest singular value) / time. Value: mean over
+    particles that finished; stderr: standard deviation / sqrt(count).
+    """
+    from flowkit.flows.custom import sample_points
+    from flowkit.integrate.batch import IntegratorSettings, integrate_states
+
+    rng = np.random.default_rng(seed)
+    pts = sample_points(flow, particles, rng)
+    if flow.domain == "ball":
+        pts *= 0.999  # strictly inside
+    states = np.concatenate([pts, np.tile(np.eye(3).T.ravel(), (particles, 1))], axis=1)
+    res = integrate_states(flow, states, 0.0, time, IntegratorSettings(rtol=rtol, atol=rtol * 1e-2), threads=1)
+    ok = res.ok
+    J = res.states[ok, 3:].reshape(-1, 3, 3)
+    s = np.linalg.svd(J, compute_uv=False)[:, 0]
+    ftle = np.log(s) / time
+    n = max(len(ftle), 1)
+    return {
+        "value": float(ftle.mean()) if len(ftle) else float("nan"),
+        "stderr": float(ftle.std(ddof=1) / np.sqrt(n)) if len(ftle) > 1 else float("nan"),
+        "failed": int((~ok).sum()),
+    }
+
+
+#: name -> measure function. Other modules add theirs with :func:`register`.
+MEASURES: dict[str, Callable[..., dict]] = {"mean_ftle": mean_ftle}
+
+
+def register(name: str, fn: Callable[..., dict]) -> None:
+    """Add a measure under ``name``."""
+    MEASURES[name] = fn
+
+
+def _lazy(module: str, attr: str) -> Callable[..., dict]:
+    def call(flow, seed, **options):
+        import importlib
+
+        return getattr(importlib.import_module(module), attr)(flow, seed, **options)
+
+    call.__name__ = attr
+    call.__doc__ = f"Measure provided by ``{module}.{attr}``."
+    return call

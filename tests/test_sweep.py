@@ -1,0 +1,118 @@
+"""Parameter sweeps: identical across backends, resumable after a real kill, safe stores."""
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+
+import numpy as np
+import pytest
+
+import flowkit
+from flowkit.errors import FlowkitError
+from flowkit.sweep import SweepSpec, open_results, run_sweep
+from flowkit.sweep.measures import mean_ftle
+
+SMALL = {"mean_ftle": {"particles": 8, "time": 3.0}}
+
+
+def small_spec(**kw):
+    args = dict(flow={"preset": "stf"}, axes={"rotation": [0.0, 0.4, 0.8]}, measures=["mean_ftle"], options=SMALL)
+    args.update(kw)
+    return SweepSpec(**args)
+
+
+def values(out):
+    return [(r["params"], r["measures"]["mean_ftle"]["value"], r["measures"]["mean_ftle"]["stderr"])
+            for r in out["points"]]
+
+
+def test_mean_ftle_of_uniform_strain_is_the_strain_rate():
+    # u = (a x, -a y, 0): deformation gradient diag(e^{at}, e^{-at}, 1), so FTLE = a exactly
+    f = flowkit.custom_flow(["a*x", "-a*y", "0"], params={"a": 0.7})
+    out = mean_ftle(f, seed=1, particles=6, time=4.0)
+    assert abs(out["value"] - 0.7) < 1e-8 and out["stderr"] < 1e-8
+
+
+def test_in_process_and_dask_local_cluster_give_identical_numbers(tmp_path):
+    spec = small_spec()
+    a = run_sweep(spec, tmp_path / "a", progress=False)
+    b = run_sweep(spec, tmp_path / "b", local_cluster=2, progress=False)
+    assert b["backend"] == "dask" and b["dashboard"]
+    assert values(a) == values(b)
+    ds = open_results(tmp_path / "b")
+    np.testing.assert_array_equal(ds["mean_ftle"].values, [v for _, v, _ in values(a)])
+
+
+def test_rerun_resumes_without_recomputing(tmp_path):
+    spec = small_spec()
+    first = run_sweep(spec, tmp_path / "s", progress=False)
+    again = run_sweep(spec, tmp_path / "s", progress=False)
+    assert again["computed"] == [] and again["reused"] == 3
+    assert values(first) == values(again)
+
+
+def test_killed_sweep_restarts_and_completes_each_point_exactly_once(tmp_path):
+    store = tmp_path / "killed"
+    argv = [sys.executable, "-m", "flowkit.cli", "sweep", "stf", "--vary", "rotation=0:1:10",
+            "--measure", "mean_ftle", "--option", "mean_ftle.particles=24", "--option", "mean_ftle.time=6",
+            "--store", str(store), "--no-progress", "--json"]
+    proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    deadline = time.time() + 240
+    while time.time() < deadline and proc.poll() is None:
+        if len(list((store / "points").glob("*.json"))) >= 3:
+            break
+        time.sleep(0.05)
+    assert proc.poll() is None, "the sweep process ended before it could be killed" 
+    os.kill(proc.pid, signal.SIGKILL)  # a real kill, mid-sweep
+    proc.wait()
+    before = {int(f.stem) for f in (store / "points").glob("*.json")}
+    n_before = len(before)
+    assert 3 <= n_before < 10, "the kill should land mid-sweep"
+    out = subprocess.run(argv, capture_output=True, text=True, check=True)
+    resumed = json.loads(out.stdout)
+    assert resumed["reused"] == n_before and resumed["computed"] == 10 - n_before
+    manifest = json.loads((store / "manifest.json").read_text())
+    # the killed run logged nothing; the restart computed exactly the points that were missing
+    assert sorted(manifest["runs"][-1]["computed"]) == sorted(set(range(10)) - before)
+    assert sorted(int(f.stem) for f in (store / "points").glob("*.json")) == list(range(10))
+    # every point exactly once, and equal to an uninterrupted run
+    spec = SweepSpec(flow={"preset": "stf"}, axes={"rotation": np.linspace(0, 1, 10).tolist()},
+                     measures=["mean_ftle"], options={"mean_ftle": {"particles": 24, "time": 6}})
+    fresh = run_sweep(spec, tmp_path / "fresh", progress=False)
+    got = [(p["params"], p["measures"]["mean_ftle"]["value"]) for p in resumed["points"]]
+    assert got == [(p, v) for p, v, _ in values(fresh)]
+
+
+def test_foreign_and_corrupt_stores_are_refused_and_left_untouched(tmp_path):
+    foreign = tmp_path / "foreign"
+    foreign.mkdir()
+    (foreign / "thesis.tex").write_text("precious")
+    with pytest.raises(FlowkitError, match="not empty and is not a flowkit sweep store"):
+        run_sweep(small_spec(), foreign, progress=False)
+    assert (foreign / "thesis.tex").read_text() == "precious" and len(list(foreign.iterdir())) == 1
+
+    store = tmp_path / "s"
+    run_sweep(small_spec(), store, progress=False)
+    with pytest.raises(FlowkitError, match="holds a different sweep"):
+        run_sweep(small_spec(axes={"rotation": [0.0, 0.5]}), store, progress=False)
+    (store / "points" / "000001.json").write_text("{not json")
+    with pytest.raises(FlowkitError, match="000001.json .* is corrupt"):
+        run_sweep(small_spec(), store, progress=False)
+    assert (store / "points" / "000001.json").read_text() == "{not json"
+
+
+def test_bad_sweep_input_is_refused_clearly(tmp_path):
+    with pytest.raises(FlowkitError, match="no parameter 'rot' to vary"):
+        small_spec(axes={"rot": [0.0]})
+    with pytest.raises(FlowkitError, match="unknown measure 'entropy'"):
+        small_spec(measures=["entropy"], options={})
+    with pytest.raises(FlowkitError, match="range of 'rotation' is empty"):
+        small_spec(axes={"rotation": []})
+    t0 = time.time()
+    with pytest.raises(FlowkitError, match="cannot reach the dask scheduler"):
+        run_sweep(small_spec(), tmp_path / "x", scheduler="tcp://127.0.0.1:9", progress=False)
+    assert time.time() - t0 < 15
+    assert not (tmp_path / "x").exists()
