@@ -118,7 +118,16 @@ def run_sweep(
                     client.run(_warm_worker, spec_dict)
                     first = client.submit(compute_task, spec_dict, todo[:1], pure=False).result()
                 keep(first)
-                tasks = chunk(todo[1:], max(first[0]["seconds"], 1e-4), task_seconds)
+                rest = todo[1:]
+                if rest:  # time one warm point to size the tasks (the first one paid for compilation)
+                    probe = compute_task(spec_dict, rest[:1]) if client is None else \
+                        client.submit(compute_task, spec_dict, rest[:1], pure=False).result()
+                    keep(probe)
+                    rest = rest[1:]
+                    per_point = probe[0]["seconds"]
+                else:
+                    per_point = first[0]["seconds"]
+                tasks = chunk(rest, max(per_point, 1e-4), task_seconds)
                 if client is None:
                     for task in tasks:
                         keep(compute_task(spec_dict, task))
