@@ -56,7 +56,7 @@ def test_rerun_resumes_without_recomputing(tmp_path):
 
 def test_killed_sweep_restarts_and_completes_each_point_exactly_once(tmp_path):
     store = tmp_path / "killed"
-    argv = [sys.executable, "-m", "flowkit.cli", "sweep", "stf", "--vary", "rotation=0:1:10",
+    argv = [sys.executable, "-m", "flowkit.cli", "sweep", "stf", "--vary", "rotation=0:1:16",
             "--measure", "mean_ftle", "--option", "mean_ftle.particles=24", "--option", "mean_ftle.time=6",
             "--store", str(store), "--no-progress", "--json"]
     proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
@@ -70,16 +70,16 @@ def test_killed_sweep_restarts_and_completes_each_point_exactly_once(tmp_path):
     proc.wait()
     before = {int(f.stem) for f in (store / "points").glob("*.json")}
     n_before = len(before)
-    assert 3 <= n_before < 10, "the kill should land mid-sweep"
+    assert 3 <= n_before < 16, "the kill should land mid-sweep"
     out = subprocess.run(argv, capture_output=True, text=True, check=True)
     resumed = json.loads(out.stdout)
-    assert resumed["reused"] == n_before and resumed["computed"] == 10 - n_before
+    assert resumed["reused"] == n_before and resumed["computed"] == 16 - n_before
     manifest = json.loads((store / "manifest.json").read_text())
     # the killed run logged nothing; the restart computed exactly the points that were missing
-    assert sorted(manifest["runs"][-1]["computed"]) == sorted(set(range(10)) - before)
-    assert sorted(int(f.stem) for f in (store / "points").glob("*.json")) == list(range(10))
+    assert sorted(manifest["runs"][-1]["computed"]) == sorted(set(range(16)) - before)
+    assert sorted(int(f.stem) for f in (store / "points").glob("*.json")) == list(range(16))
     # every point exactly once, and equal to an uninterrupted run
-    spec = SweepSpec(flow={"preset": "stf"}, axes={"rotation": np.linspace(0, 1, 10).tolist()},
+    spec = SweepSpec(flow={"preset": "stf"}, axes={"rotation": np.linspace(0, 1, 16).tolist()},
                      measures=["mean_ftle"], options={"mean_ftle": {"particles": 24, "time": 6}})
     fresh = run_sweep(spec, tmp_path / "fresh", progress=False)
     got = [(p["params"], p["measures"]["mean_ftle"]["value"]) for p in resumed["points"]]

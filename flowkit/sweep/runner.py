@@ -128,9 +128,10 @@ def run_sweep(
                 else:
                     per_point = first[0]["seconds"]
                 tasks = chunk(rest, max(per_point, 1e-4), task_seconds)
-                if client is None:
+                if client is None:  # in-process: store each point the moment it is done
                     for task in tasks:
-                        keep(compute_task(spec_dict, task))
+                        for index in task:
+                            keep([compute_point(spec_dict, index)])
                 else:
                     from distributed import as_completed
 
