@@ -33,6 +33,8 @@ TEMPLATES: list[str] = [
     "steppers",
     "batch",
     "splitting",
+    "lyapunov",
+    "ftle",
 ]
 
 _STUB_MARK = "# flowkit:stub"

@@ -1,0 +1,428 @@
+"""Finite-time Lyapunov exponent (FTLE) fields on a planar grid.
+
+For every grid point x0 the deformation gradient J = d x(t0 + T) / d x0 is
+integrated with the variational equations and the flow's exact gradient (the
+``position + tangent vectors`` state of :mod:`flowkit.kernels.steppers`, run by
+the parallel batch driver), and
+
+    FTLE(x0) = log(sigma_max(J)) / T
+
+with sigma_max the largest singular value of J (the 2x2 in-plane block for
+planar flows). Forward time shows repelling structures, backward time attracting
+ones. No finite-difference spacing is involved.
+
+The grid lies on a plane of any orientation, described by :class:`GridPlane`
+(a point, two in-plane directions and the coordinate ranges along them).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import time as _time
+import warnings
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+
+import numba
+import numpy as np
+
+from flowkit.errors import FlowkitError, FlowkitNotice
+from flowkit.flows.base import Flow
+from flowkit.integrate.batch import IntegratorSettings, integrate_states, thread_limit
+from flowkit.integrate.outcomes import OUTCOME_NAMES, outcome_counts
+from flowkit.lyapunov import check_time, method_record, read_npz, require_flow, write_npz
+
+__all__ = ["GridPlane", "FTLEField", "ftle_field", "ftle_from_states", "FTLE_SETTINGS"]
+
+#: Default integrator settings for FTLE fields (looser than sections: the field is
+#: a picture, and its error is checked against tighter runs in the tests).
+FTLE_SETTINGS = IntegratorSettings(rtol=1e-9, atol=1e-11)
+
+#: Outcome code of grid points that lie outside the flow's domain (never integrated).
+OUTSIDE = -1
+#: Outcome code of grid points not computed because the run was interrupted.
+NOT_RUN = -2
+_EXTRA_NAMES = {OUTSIDE: "outside the domain", NOT_RUN: "not computed (interrupted)"}
+
+
+def _unit(vec, name: str) -> np.ndarray:
+    v = np.asarray(vec, dtype=np.float64).reshape(-1)
+    if v.shape != (3,) or not np.all(np.isfinite(v)):
+        raise FlowkitError(f"`{name}` must be three finite numbers; got {vec!r}")
+    n = np.linalg.norm(v)
+    if n == 0:
+        raise FlowkitError(f"`{name}` must not be the zero vector")
+    return v / n
+
+
+@dataclass(frozen=True)
+class GridPlane:
+    """A rectangle of a plane in 3-D space, on which an FTLE grid is laid.
+
+    Grid point (i, j) sits at ``origin + s_j * u + r_i * v`` with ``s`` running
+    over ``span[0]..span[1]`` and ``r`` over ``span[2]..span[3]``. ``u`` and ``v``
+    are orthonormal (:meth:`through` makes them so).
+    """
+
+    origin: tuple
+    u: tuple
+    v: tuple
+    span: tuple
+    label: str = ""
+
+    @classmethod
+    def through(cls, origin, u, v, span) -> "GridPlane":
+        """Plane through ``origin`` containing directions ``u`` and ``v``.
+
+        ``v`` is made orthogonal to ``u`` (Gram–Schmidt), keeping its side; ``span``
+        is (s_min, s_max, r_min, r_max), coordinates along ``u`` and ``v``.
+        """
+        o = np.asarray(origin, dtype=np.float64).reshape(-1)
+        if o.shape != (3,) or not np.all(np.isfinite(o)):
+            raise FlowkitError(f"plane `origin` must be three finite numbers; got {origin!r}")
+        uu = _unit(u, "u")
+        vv = _unit(v, "v")
+        vv = vv - (vv @ uu) * uu
+        if np.linalg.norm(vv) < 1e-9:
+            raise FlowkitError("plane directions `u` and `v` are parallel; give two independent in-plane vectors")
+        vv /= np.linalg.norm(vv)
+        sp = _check_span(span)
+        return cls(tuple(o), tuple(uu), tuple(vv), sp,
+                   f"origin {tuple(np.round(o, 6))}, u {tuple(np.round(uu, 6))}, v {tuple(np.round(vv, 6))}")
+
+    @classmethod
+    def coordinate(cls, axis: str, value: float, span) -> "GridPlane":
+        """The plane ``axis = value``; in-plane axes (y, z) for x, (x, z) for y, (x, y) for z."""
+        axes = {"x": (1, 2), "y": (0, 2), "z": (0, 1)}
+        if axis not in axes:
+            raise FlowkitError(f"`axis` must be 'x', 'y' or 'z'; got {axis!r}")
+        k = "xyz".index(axis)
+        eye = np.eye(3)
+        o = np.zeros(3)
+        o[k] = float(value)
+        a, b = axes[axis]
+        plane = cls.through(o, eye[a], eye[b], span)
+        return cls(plane.origin, plane.u, plane.v, plane.span, f"{axis} = {float(value):g}")
+
+    @classmethod
+    def parse(cls, text: str, span=None) -> "GridPlane":
+        """Read ``"z=0.3"`` (a coordinate plane) or ``"P;U;V"`` (point and two directions).
+
+        Each of P, U, V is three comma-separated numbers, e.g. ``"0,0,0;1,0,0;0,1,1"``.
+        """
+        from flowkit.cli.common import parse_vector
+
+        text = str(text).strip()
+        if "=" in text and ";" not in text:
+            axis, _, value = text.partition("=")
+            try:
+                val = float(value)
+            except ValueError:
+                raise FlowkitError(f"--plane {text!r}: {value!r} is not a number (e.g. --plane z=0.3)") from None
+            return cls.coordinate(axis.strip().lower(), val, span)
+        parts = text.split(";")
+        if len(parts) != 3:
+            raise FlowkitError(
+                f"--plane expects AXIS=VALUE (e.g. z=0.3) or POINT;U;V (e.g. 0,0,0;1,0,0;0,1,1); got {text!r}"
+            )
+        p, u, v = (parse_vector(s, f"--plane part {i + 1}") for i, s in enumerate(parts))
+        return cls.through(p, u, v, span)
+
+    def with_default_span(self, flow: Flow) -> "GridPlane":
+        """Fill a missing span from the flow's domain (unit ball or 2*pi box)."""
+        if self.span:
+            return self
+        return GridPlane(self.origin, self.u, self.v, default_span(flow), self.label)
+
+    def grid(self, resolution) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(s (N,), r (M,), points (M, N, 3)) for ``resolution = (N, M)``."""
+        n, m = check_resolution(resolution)
+        s = np.linspace(self.span[0], self.span[1], n)
+        r = np.linspace(self.span[2], self.span[3], m)
+        pts = (np.asarray(self.origin)[None, None, :] + s[None, :, None] * np.asarray(self.u)[None, None, :]
+               + r[:, None, None] * np.asarray(self.v)[None, None, :])
+        return s, r, pts
+
+    def as_dict(self) -> dict:
+        return {k: (list(v) if isinstance(v, tuple) else v) for k, v in asdict(self).items()}
+
+
+def _check_span(span) -> tuple:
+    if span is None:
+        return ()
+    try:
+        vals = tuple(float(x) for x in span)
+    except (TypeError, ValueError):
+        raise FlowkitError(f"`span` must be four numbers (s_min, s_max, r_min, r_max); got {span!r}") from None
+    if len(vals) != 4 or not all(math.isfinite(x) for x in vals):
+        raise FlowkitError(f"`span` must be four finite numbers (s_min, s_max, r_min, r_max); got {span!r}")
+    if not (vals[1] > vals[0] and vals[3] > vals[2]):
+        raise FlowkitError(f"`span` must have s_max > s_min and r_max > r_min; got {vals}")
+    return vals
+
+
+def default_span(flow: Flow) -> tuple:
+    """In-plane coordinate ranges covering the flow's domain, or a clear error."""
+    if flow.domain == "ball":
+        return (-1.0, 1.0, -1.0, 1.0)
+    if flow.domain == "periodic":
+        return (0.0, 2 * math.pi, 0.0, 2 * math.pi)
+    raise FlowkitError(
+        f"flow '{flow.name}' lives on an unbounded domain: give the grid's `span` "
+        "(s_min, s_max, r_min, r_max), e.g. span=(0, 2, 0, 1) for the double gyre (--span 0,2,0,1)"
+    )
+
+
+def check_resolution(resolution) -> tuple[int, int]:
+    """(N, M) grid size with both at least 2, or a clear error."""
+    try:
+        n, m = (int(x) for x in resolution)
+        ok = all(float(x) == int(x) for x in resolution)
+    except (TypeError, ValueError):
+        raise FlowkitError(f"`resolution` must be two integers (N, M); got {resolution!r}") from None
+    if not ok or n < 2 or m < 2:
+        raise FlowkitError(f"`resolution` must be at least 2x2 grid points; got {resolution!r}")
+    return n, m
+
+
+@dataclass
+class FTLEField:
+    """An FTLE field on a planar grid, with its coordinates and provenance.
+
+    Attributes
+    ----------
+    values : ndarray (M, N)
+        FTLE at each grid point (NaN where ``outcome != 0``; see :attr:`outcomes`).
+    s, r : ndarray
+        Grid coordinates along the plane's ``u`` (N,) and ``v`` (M,) directions.
+    points : ndarray (M, N, 3)
+        Grid points in space.
+    outcome : ndarray (M, N) int8
+        Trajectory outcome (0 finished; see :class:`~flowkit.integrate.outcomes.Outcome`),
+        -1 outside the domain, -2 not computed (interrupted run).
+    time, t0, direction : float, float, str
+        Integration time (positive), start time, and "forward" or "backward".
+    plane : dict
+        The :class:`GridPlane` as a dict.
+    """
+
+    values: np.ndarray
+    s: np.ndarray
+    r: np.ndarray
+    points: np.ndarray
+    outcome: np.ndarray
+    time: float
+    t0: float
+    direction: str
+    plane: dict
+    seconds: float = 0.0
+    provenance: dict = field(default_factory=dict)
+
+    @property
+    def outcomes(self) -> dict[str, int]:
+        """Number of grid points per outcome (including outside / not computed)."""
+        out = outcome_counts(self.outcome[self.outcome >= 0])
+        for code, name in _EXTRA_NAMES.items():
+            out[name] = int(np.sum(self.outcome == code))
+        return out
+
+    @property
+    def complete(self) -> bool:
+        """True if every grid point inside the domain finished."""
+        return bool(np.all((self.outcome == 0) | (self.outcome == OUTSIDE)))
+
+    def to_xarray(self):
+        """``xarray.Dataset`` with ``ftle(r, s)``, ``outcome`` and the x, y, z of each grid point."""
+        import xarray as xr
+
+        dims = ("r", "s")
+        ds = xr.Dataset(
+            {"ftle": (dims, self.values), "outcome": (dims, self.outcome)},
+            coords={"s": self.s, "r": self.r, "x": (dims, self.points[..., 0]),
+                    "y": (dims, self.points[..., 1]), "z": (dims, self.points[..., 2])},
+        )
+        ds["ftle"].attrs.update(long_name=f"{self.direction} FTLE", units="1/time")
+        ds.attrs.update(flowkit_result="FTLEField", meta=json.dumps(self._meta()))
+        return ds
+
+    def _meta(self) -> dict:
+        from flowkit.lyapunov import _json_ready
+
+        return _json_ready({"time": self.time, "t0": self.t0, "direction": self.direction, "plane": self.plane,
+                            "seconds": self.seconds, "provenance": self.provenance})
+
+    def save(self, path) -> Path:
+        """Write to ``.npz`` (arrays + JSON metadata) or ``.nc`` (netCDF via xarray)."""
+        path = Path(path)
+        if path.suffix == ".nc":
+            self.to_xarray().to_netcdf(path)
+            return path
+        if path.suffix != ".npz":
+            raise FlowkitError(f"`path` must end in .npz or .nc; got {path.name!r}")
+        arrays = {"values": self.values, "s": self.s, "r": self.r, "points": self.points, "outcome": self.outcome}
+        return write_npz(path, arrays, {"flowkit_result": "FTLEField", **self._meta()})
+
+    @classmethod
+    def load(cls, path) -> "FTLEField":
+        """Read a file written by :meth:`save` (no code is executed)."""
+        path = Path(path)
+        if path.suffix == ".nc":
+            import xarray as xr
+
+            with xr.open_dataset(path) as ds:
+                if ds.attrs.get("flowkit_result") != "FTLEField":
+                    raise FlowkitError(f"{path} does not hold a flowkit FTLEField")
+                meta = json.loads(ds.attrs["meta"])
+                pts = np.stack([ds["x"].values, ds["y"].values, ds["z"].values], axis=-1)
+                arrays = {"values": ds["ftle"].values, "s": ds["s"].values, "r": ds["r"].values,
+                          "points": pts, "outcome": ds["outcome"].values.astype(np.int8)}
+        else:
+            arrays, meta = read_npz(path)
+            if meta.pop("flowkit_result", None) != "FTLEField":
+                raise FlowkitError(f"{path} does not hold a flowkit FTLEField")
+        return cls(**arrays, **meta)
+
+    def __str__(self) -> str:
+        ok = self.values[np.isfinite(self.values)]
+        rng = f"{ok.min():.4g} .. {ok.max():.4g}" if ok.size else "no finite values"
+        return (f"{self.direction} FTLE field {self.values.shape[1]}x{self.values.shape[0]}, T = {self.time:g}, "
+                f"t0 = {self.t0:g}: {rng}; outcomes {self.outcomes}")
+
+
+def ftle_from_states(states: np.ndarray, planar: bool, time: float) -> np.ndarray:
+    """FTLE from final variational states (N, 3 + 3k): log(sigma_max(J)) / time."""
+    N = states.shape[0]
+    if planar:
+        J = states[:, 3:9].reshape(N, 2, 3)[:, :, :2].transpose(0, 2, 1)
+    else:
+        J = states[:, 3:12].reshape(N, 3, 3).transpose(0, 2, 1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sig = np.linalg.svd(J, compute_uv=False)[:, 0]
+        return np.log(sig) / time
+
+
+def _run_chunk(flow, pts, t0, t1, time, settings, threads, planar):
+    """FTLE values and outcome codes for one chunk of grid points."""
+    if settings.method == "rk4":
+        nsteps = max(1, int(math.ceil(time / settings.step - 1e-9)))
+        logs = np.empty(pts.shape[0])
+        codes = np.zeros(pts.shape[0], dtype=np.int8)
+        with thread_limit(threads), numba.parallel_chunksize(16):
+            flow.kernels.ftle_rk4_grid(np.ascontiguousarray(pts), t0, (t1 - t0) / nsteps, nsteps, flow.params,
+                                       planar, flow.domain == "ball", logs, codes)
+        return logs / time, codes
+    k = 2 if planar else 3
+    Y = np.zeros((pts.shape[0], 3 + 3 * k))
+    Y[:, :3] = pts
+    for c in range(k):
+        Y[:, 3 + 3 * c + c] = 1.0
+    res = integrate_states(flow, Y, t0, t1, settings, threads)
+    vals = ftle_from_states(res.states, planar, time)
+    vals[res.outcome != 0] = np.nan
+    return vals, res.outcome
+
+
+def ftle_field(
+    flow: Flow,
+    plane: GridPlane,
+    resolution=(128, 128),
+    time: float = 1.0,
+    *,
+    t0: float = 0.0,
+    direction: str = "forward",
+    settings: IntegratorSettings | None = None,
+    threads: int | None = None,
+    chunk: int = 8192,
+    progress: bool = False,
+) -> FTLEField:
+    """FTLE field of ``flow`` on a grid over ``plane``.
+
+    Parameters
+    ----------
+    flow : Flow
+        Any flowkit flow; planar flows need a plane in the x-y plane (their 2x2
+        block is used).
+    plane : GridPlane
+        Where the grid lies; a missing span is filled from the flow's domain.
+    resolution : (int, int)
+        Grid points along ``u`` and ``v`` (N, M), each at least 2.
+    time : float
+        Integration time, positive; ``direction`` chooses forward or backward.
+    t0 : float
+        Start time (time-periodic flows).
+    direction : {"forward", "backward"}
+    settings : IntegratorSettings, optional
+        Default :data:`FTLE_SETTINGS` (DOP853, rtol 1e-9). ``method="rk4"`` with a
+        ``step`` is accepted too.
+    threads : int, optional
+        Number of threads (default: all).
+    chunk : int
+        Grid points per kernel call; finished chunks survive an interruption
+        (Ctrl-C returns the partial field with outcome -2 where not computed).
+    progress : bool
+        Show a progress bar (tqdm).
+
+    Returns
+    -------
+    FTLEField
+        Grid points outside the domain get outcome -1 and NaN; orbits that fail
+        (left the domain, non-finite, step budget) keep their outcome code and NaN.
+    """
+    flow = require_flow(flow)
+    time = check_time(time)
+    if direction not in ("forward", "backward"):
+        raise FlowkitError(f"`direction` must be 'forward' or 'backward'; got {direction!r}")
+    if not isinstance(plane, GridPlane):
+        raise FlowkitError(f"`plane` must be a GridPlane (GridPlane.coordinate('z', 0.0, span)); got {type(plane).__name__}")
+    if not math.isfinite(float(t0)):
+        raise FlowkitError(f"`t0` must be finite; got {t0!r}")
+    plane = plane.with_default_span(flow)
+    settings = settings or FTLE_SETTINGS
+    planar = flow.kind == "planar"
+    if planar and (abs(plane.u[2]) > 1e-12 or abs(plane.v[2]) > 1e-12):
+        raise FlowkitError(f"flow '{flow.name}' is planar: the grid must lie in the x-y plane (e.g. --plane z=0)")
+    s, r, pts = plane.grid(resolution)
+    flat = pts.reshape(-1, 3)
+    inside = flow.contains(flat)
+    if not inside.any():
+        raise FlowkitError(f"no grid point lies inside the domain of '{flow.name}' ({flow.domain}); "
+                           "move the plane or change its span")
+    outcome = np.full(flat.shape[0], NOT_RUN, dtype=np.int8)
+    outcome[~inside] = OUTSIDE
+    values = np.full(flat.shape[0], np.nan)
+    idx = np.flatnonzero(inside)
+    t1 = float(t0) + (time if direction == "forward" else -time)
+    start = _time.perf_counter()
+    bar = None
+    if progress:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(total=idx.size, desc="FTLE", unit="pt")
+    try:
+        for a in range(0, idx.size, chunk):
+            part = idx[a:a + chunk]
+            vals, codes = _run_chunk(flow, flat[part], float(t0), t1, time, settings, threads, planar)
+            values[part] = vals
+            outcome[part] = codes
+            if bar is not None:
+                bar.update(part.size)
+    except KeyboardInterrupt:
+        warnings.warn(f"FTLE run interrupted: {int(np.sum(outcome == NOT_RUN))} grid points not computed "
+                      "(outcome -2); the finished ones are kept", FlowkitNotice, stacklevel=2)
+    finally:
+        if bar is not None:
+            bar.close()
+    seconds = _time.perf_counter() - start
+    failed = {OUTCOME_NAMES[c]: int(n) for c, n in zip(*np.unique(outcome[outcome > 0], return_counts=True))}
+    if failed:
+        warnings.warn(f"FTLE field: some trajectories did not finish ({failed}); their values are NaN "
+                      "(see field.outcome)", FlowkitNotice, stacklevel=2)
+    provenance = flow.provenance()
+    provenance["method"] = method_record(
+        settings, algorithm="variational equations with the exact gradient; FTLE = log(largest singular value "
+        "of the deformation gradient) / T" + ("; in-plane 2x2 block" if planar else ""),
+        resolution=list(check_resolution(resolution)), threads=threads)
+    M, N = pts.shape[:2]
+    return FTLEField(values.reshape(M, N), s, r, pts, outcome.reshape(M, N), time, float(t0), direction,
+                     plane.as_dict(), seconds, provenance)

@@ -1,0 +1,425 @@
+"""Lyapunov spectra from the variational equations with the exact gradient.
+
+:func:`lyapunov_spectrum` follows one orbit with its tangent vectors, keeps them
+orthonormal by QR (Gram–Schmidt) after every integrator step and averages the
+logarithms of the diagonal of R (Meccanica 15, 1980, 9-20). It discards a
+transient, keeps the running estimate, gives standard errors from block
+averages, and says whether the estimate has converged (and why not). Its sanity
+figure is the mean divergence along the same stretch of orbit, computed
+independently of the tangent vectors: the exponents must add up to it (zero for
+incompressible flows).
+
+Every flowkit flow carries its gradient: exact (symbolic) for presets, Lamb
+flows and symbolic user flows; fourth-order finite differences for user Python
+functions that cannot be traced (``flow.family.gradient_method`` says which, and
+it is recorded in the provenance).
+
+The helpers :func:`require_flow`, :func:`run_tangent` and the small npz/JSON
+writers are shared with :mod:`flowkit.chaos` and :mod:`flowkit.ftle`.
+"""
+
+from __future__ import annotations
+
+import datetime
+import json
+import math
+import time as _time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numba
+import numpy as np
+
+from flowkit._version import __version__
+from flowkit.errors import FlowkitError
+from flowkit.flows.base import Flow
+from flowkit.integrate.batch import IntegratorSettings, check_seeds, thread_limit
+from flowkit.integrate.outcomes import OUTCOME_NAMES, Outcome
+
+__all__ = ["Spectrum", "lyapunov_spectrum", "require_flow", "run_tangent", "n_exponents"]
+
+
+# -- shared helpers ------------------------------------------------------------------
+def require_flow(flow, name: str = "flow") -> Flow:
+    """Return ``flow`` if it is a flowkit :class:`~flowkit.flows.base.Flow`, else a clear error.
+
+    Tangent and variational equations need the flow's gradient; only flowkit flows
+    carry one. A plain Python function ``f(x, y, z, t, p) -> (u, v, w)`` can be
+    wrapped with :func:`flowkit.custom_flow`, which differentiates it exactly if it
+    can be traced symbolically and by fourth-order finite differences otherwise.
+    """
+    if isinstance(flow, Flow):
+        return flow
+    raise FlowkitError(
+        f"`{name}` must be a flowkit Flow (from flowkit.flow(...), lamb_flow, surface_flow or custom_flow); "
+        f"got {type(flow).__name__}. Lyapunov exponents and FTLE need the velocity gradient: wrap a Python "
+        "function with flowkit.custom_flow(func) (exact gradient if it can be traced, finite differences otherwise)."
+    )
+
+
+def n_exponents(flow: Flow) -> int:
+    """Number of exponents: 2 for planar flows (the x-y block), 3 otherwise."""
+    return 2 if flow.kind == "planar" else 3
+
+
+def check_time(time: float, name: str = "time") -> float:
+    """A positive finite duration, or a clear error."""
+    try:
+        val = float(time)
+    except (TypeError, ValueError):
+        raise FlowkitError(f"`{name}` must be a positive number; got {time!r}") from None
+    if not (math.isfinite(val) and val > 0):
+        raise FlowkitError(
+            f"`{name}` must be a positive, finite duration; got {time!r} "
+            "(to go backward in time use direction='backward', not a negative time)"
+        )
+    return val
+
+
+def dop853_settings(settings: IntegratorSettings | None) -> IntegratorSettings:
+    """Settings for the tangent kernels (adaptive DOP853 only)."""
+    settings = settings or IntegratorSettings()
+    if not isinstance(settings, IntegratorSettings):
+        raise FlowkitError(f"`settings` must be an IntegratorSettings; got {type(settings).__name__}")
+    if settings.method != "dop853":
+        raise FlowkitError(
+            "tangent-space integration uses adaptive DOP853; pass IntegratorSettings(method='dop853', ...) "
+            f"instead of method={settings.method!r}"
+        )
+    return settings
+
+
+def tangent_states(points: np.ndarray, ncol: int, first: np.ndarray | None = None) -> np.ndarray:
+    """States (N, 3 + 3 ncol): positions followed by orthonormal tangent columns.
+
+    The columns are the unit axes, or, if ``first`` is given (a unit vector), that
+    single vector (``ncol`` must then be 1).
+    """
+    N = points.shape[0]
+    Y = np.zeros((N, 3 + 3 * ncol))
+    Y[:, :3] = points
+    if first is not None:
+        Y[:, 3:6] = first
+    else:
+        for c in range(ncol):
+            Y[:, 3 + 3 * c + c] = 1.0
+    return Y
+
+
+@dataclass
+class TangentRun:
+    """Raw output of :func:`run_tangent` (per row and per stretch between checkpoints)."""
+
+    logs: np.ndarray      # (N, m, ncol) sums of log R_cc, NaN for stretches not reached
+    div: np.ndarray       # (N, m) integral of div u over each stretch
+    outcome: np.ndarray   # (N,) int8 outcome codes
+    t_end: np.ndarray     # (N,) time reached
+    steps: np.ndarray     # (N,) accepted steps
+    seconds: float
+
+
+def run_tangent(flow: Flow, states: np.ndarray, times: np.ndarray, settings: IntegratorSettings,
+                threads: int | None = None) -> TangentRun:
+    """Run the tangent kernel over checkpoint ``times`` for every row of ``states`` (modified in place)."""
+    N, n = states.shape
+    m = len(times) - 1
+    ncol = (n - 3) // 3
+    logs = np.full((N, m, ncol), np.nan)
+    div = np.full((N, m), np.nan)
+    outcome = np.zeros(N, dtype=np.int8)
+    t_end = np.zeros(N)
+    steps = np.zeros(N, dtype=np.int64)
+    t0 = _time.perf_counter()
+    with thread_limit(threads), numba.parallel_chunksize(1):
+        flow.kernels.tangent_batch(
+            states, np.ascontiguousarray(times, dtype=np.float64), flow.params, settings.rtol, settings.atol,
+            float(settings.max_step), int(settings.max_steps), flow.domain == "ball",
+            logs, div, outcome, t_end, steps,
+        )
+    return TangentRun(logs, div, outcome, t_end, steps, _time.perf_counter() - t0)
+
+
+def method_record(settings: IntegratorSettings, **extra) -> dict:
+    """Method settings for a result's provenance."""
+    rec = {"integrator": settings.as_dict(), "flowkit_version": __version__,
+           "date": datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds")}
+    rec.update(extra)
+    return rec
+
+
+def _json_ready(obj):
+    from flowkit.cli import _jsonable
+
+    return _jsonable(obj)
+
+
+def write_npz(path: Path, arrays: dict, meta: dict) -> Path:
+    """Arrays plus a JSON metadata string in one ``.npz`` (reloads with ``allow_pickle=False``)."""
+    path = Path(path)
+    np.savez_compressed(path, __meta__=np.array(json.dumps(_json_ready(meta))), **arrays)
+    return path
+
+
+def read_npz(path: Path) -> tuple[dict, dict]:
+    """Inverse of :func:`write_npz`: (arrays, meta)."""
+    with np.load(Path(path), allow_pickle=False) as data:
+        arrays = {k: data[k] for k in data.files if k != "__meta__"}
+        meta = json.loads(str(data["__meta__"]))
+    return arrays, meta
+
+
+# -- the spectrum --------------------------------------------------------------------
+@dataclass
+class Spectrum:
+    """Lyapunov spectrum of one orbit, with error bars and a convergence verdict.
+
+    Attributes
+    ----------
+    exponents : ndarray
+        Exponents in QR-column order (largest first), per unit time.
+    stderr : ndarray
+        Standard error of each exponent from ``blocks`` block averages.
+    converged : bool
+        True when the orbit finished, the standard errors are below ``tolerance``,
+        the two halves of the run agree, and the sum matches the mean divergence.
+    reason : str
+        Why ``converged`` is False ("" when it is True).
+    mean_divergence : float
+        Time average of div u along the same stretch of orbit (independent of the
+        tangent vectors); ``exponents.sum()`` should equal it.
+    times, running : ndarray
+        End times of the kept bookkeeping intervals and the running estimate there.
+    block_means : ndarray
+        (blocks, k) exponent estimate of each block.
+    """
+
+    exponents: np.ndarray
+    stderr: np.ndarray
+    converged: bool
+    reason: str
+    mean_divergence: float
+    tolerance: float
+    point: np.ndarray
+    time: float
+    transient: float
+    t0: float
+    times: np.ndarray
+    running: np.ndarray
+    block_means: np.ndarray
+    outcome: str
+    steps: int
+    seconds: float
+    provenance: dict = field(default_factory=dict)
+
+    @property
+    def sum(self) -> float:
+        """Sum of the exponents."""
+        return float(np.sum(self.exponents))
+
+    @property
+    def sum_stderr(self) -> float:
+        """Standard error of the sum (from the block sums)."""
+        b = self.block_means.sum(axis=1)
+        return float(np.std(b, ddof=1) / math.sqrt(len(b))) if len(b) > 1 else math.nan
+
+    def to_dict(self) -> dict:
+        """JSON-ready summary (no running estimate)."""
+        return {
+            "exponents": self.exponents.tolist(), "stderr": self.stderr.tolist(),
+            "converged": self.converged, "reason": self.reason, "sum": self.sum,
+            "sum_stderr": self.sum_stderr, "mean_divergence": self.mean_divergence,
+            "tolerance": self.tolerance, "point": self.point.tolist(), "time": self.time,
+            "transient": self.transient, "t0": self.t0, "outcome": self.outcome, "steps": self.steps,
+            "seconds": self.seconds, "provenance": self.provenance,
+        }
+
+    def to_xarray(self):
+        """The running estimate as an ``xarray.Dataset`` (dims ``time``, ``exponent``)."""
+        import xarray as xr
+
+        k = len(self.exponents)
+        ds = xr.Dataset(
+            {"running": (("time", "exponent"), self.running),
+             "block_means": (("block", "exponent"), self.block_means),
+             "exponents": (("exponent",), self.exponents), "stderr": (("exponent",), self.stderr)},
+            coords={"time": self.times, "exponent": np.arange(1, k + 1), "block": np.arange(len(self.block_means))},
+        )
+        summary = self.to_dict()
+        ds.attrs["flowkit_result"] = "Spectrum"
+        ds.attrs["summary"] = json.dumps(_json_ready(summary))
+        return ds
+
+    def save(self, path) -> Path:
+        """Write to ``.npz`` (arrays + JSON metadata) or ``.json`` (summary and arrays as lists)."""
+        path = Path(path)
+        arrays = {"times": self.times, "running": self.running, "block_means": self.block_means}
+        if path.suffix == ".json":
+            data = self.to_dict()
+            data.update({k: v.tolist() for k, v in arrays.items()})
+            path.write_text(json.dumps(_json_ready({"flowkit_result": "Spectrum", **data}), indent=1))
+            return path
+        if path.suffix != ".npz":
+            raise FlowkitError(f"`path` must end in .npz or .json; got {path.name!r}")
+        return write_npz(path, arrays, {"flowkit_result": "Spectrum", **self.to_dict()})
+
+    @classmethod
+    def load(cls, path) -> "Spectrum":
+        """Read a file written by :meth:`save` (no code is executed)."""
+        path = Path(path)
+        if path.suffix == ".json":
+            meta = json.loads(path.read_text())
+            arrays = {k: np.asarray(meta.pop(k), dtype=float) for k in ("times", "running", "block_means")}
+        else:
+            arrays, meta = read_npz(path)
+        if meta.pop("flowkit_result", None) != "Spectrum":
+            raise FlowkitError(f"{path} does not hold a flowkit Spectrum")
+        for key in ("sum", "sum_stderr"):
+            meta.pop(key, None)
+        for key in ("exponents", "stderr", "point"):
+            meta[key] = np.array([np.nan if v is None else v for v in meta[key]], dtype=float)
+        if meta["mean_divergence"] is None:
+            meta["mean_divergence"] = math.nan
+        return cls(**meta, **arrays)
+
+    def __str__(self) -> str:
+        vals = ", ".join(f"{e:+.5f} ± {s:.1e}" for e, s in zip(self.exponents, self.stderr))
+        verdict = "converged" if self.converged else f"NOT converged: {self.reason}"
+        return (f"Lyapunov spectrum [{vals}]; sum {self.sum:+.6f} vs mean divergence "
+                f"{self.mean_divergence:+.6f}; {verdict}")
+
+
+def lyapunov_spectrum(
+    flow: Flow,
+    point,
+    time: float,
+    *,
+    transient: float | None = None,
+    t0: float = 0.0,
+    intervals: int = 1000,
+    blocks: int = 20,
+    tolerance: float | None = None,
+    settings: IntegratorSettings | None = None,
+) -> Spectrum:
+    """Full Lyapunov spectrum of the orbit through ``point``.
+
+    Parameters
+    ----------
+    flow : Flow
+        Any flowkit flow or ODE system (planar flows give their two in-plane exponents).
+    point : array_like, shape (3,)
+        Starting point, inside the flow's domain.
+    time : float
+        Averaging time after the transient (positive).
+    transient : float, optional
+        Time integrated first and discarded (default ``0.1 * time``).
+    t0 : float
+        Start time (matters for time-periodic flows).
+    intervals : int
+        Number of bookkeeping intervals in the averaging window (running
+        estimate resolution); rounded up to a multiple of ``blocks``.
+    blocks : int
+        Number of blocks for the standard error (at least 4).
+    tolerance : float, optional
+        Largest acceptable standard error for ``converged``
+        (default ``max(1e-3, 0.01 * |largest exponent|)``).
+    settings : IntegratorSettings, optional
+        DOP853 tolerances (default rtol 1e-10, atol 1e-12).
+
+    Returns
+    -------
+    Spectrum
+
+    Notes
+    -----
+    Method of Meccanica 15 (1980) 9-20: tangent vectors obey the variational
+    equation with the flow's exact gradient; they are re-orthonormalized by
+    Gram–Schmidt after every DOP853 step (see :mod:`flowkit.kernels.lyapunov`).
+    A failed orbit (left the domain, non-finite values, step budget) is not an
+    exception: the result keeps what was finished and ``converged`` is False
+    with the outcome as the reason.
+    """
+    flow = require_flow(flow)
+    time = check_time(time)
+    settings = dop853_settings(settings)
+    transient = 0.1 * time if transient is None else float(transient)
+    if not (math.isfinite(transient) and transient >= 0):
+        raise FlowkitError(f"`transient` must be a non-negative time; got {transient!r}")
+    if not (isinstance(blocks, (int, np.integer)) and blocks >= 4):
+        raise FlowkitError(f"`blocks` must be an integer >= 4 (for a standard error); got {blocks!r}")
+    if not (isinstance(intervals, (int, np.integer)) and intervals >= 1):
+        raise FlowkitError(f"`intervals` must be a positive integer; got {intervals!r}")
+    if not math.isfinite(float(t0)):
+        raise FlowkitError(f"`t0` must be finite; got {t0!r}")
+    x0 = check_seeds(flow, point, "point")
+    if x0.shape[0] != 1:
+        raise FlowkitError(f"`point` must be one point (x, y, z); got {x0.shape[0]} points")
+
+    per_block = -(-intervals // blocks)
+    n_keep = per_block * blocks
+    tau = time / n_keep
+    n_tr = int(math.ceil(transient / tau - 1e-9))
+    times = float(t0) + tau * np.arange(n_tr + n_keep + 1)
+    k = n_exponents(flow)
+    run = run_tangent(flow, tangent_states(x0, k), times, settings)
+
+    logs = run.logs[0, n_tr:]
+    div = run.div[0, n_tr:]
+    done = int(np.sum(np.isfinite(div)))          # completed kept intervals
+    usable = (done // per_block) * per_block
+    outcome = OUTCOME_NAMES[int(run.outcome[0])]
+    reasons = []
+    if run.outcome[0] != Outcome.FINISHED:
+        reasons.append(f"orbit ended early ({outcome}) at t = {run.t_end[0]:.6g}; "
+                       f"{done} of {n_keep} averaging intervals were completed")
+    nb = usable // per_block
+    if nb >= 2:
+        block_means = logs[:usable].reshape(nb, per_block, k).sum(axis=1) / (per_block * tau)
+        exps = block_means.mean(axis=0)
+        stderr = block_means.std(axis=0, ddof=1) / math.sqrt(nb)
+        mean_div = float(np.sum(div[:usable]) / (usable * tau))
+    else:
+        block_means = np.zeros((0, k))
+        exps = np.full(k, np.nan)
+        stderr = np.full(k, np.nan)
+        mean_div = math.nan
+        reasons.append("fewer than two blocks were completed: no estimate")
+    running = np.cumsum(logs[:done], axis=0) / (tau * np.arange(1, done + 1))[:, None]
+    tol = float(tolerance) if tolerance is not None else max(1e-3, 0.01 * abs(float(exps[0])) if math.isfinite(exps[0]) else 1e-3)
+    if nb >= 2:
+        reasons += _convergence_problems(block_means, exps, stderr, mean_div, tol, nb, blocks)
+
+    provenance = flow.provenance()
+    provenance["method"] = method_record(
+        settings, algorithm="variational equations, Gram-Schmidt QR after every DOP853 step (Meccanica 15, 1980)",
+        interval=tau, intervals=n_keep, transient_intervals=n_tr, blocks=blocks)
+    return Spectrum(
+        exponents=exps, stderr=stderr, converged=not reasons, reason="; ".join(reasons),
+        mean_divergence=mean_div, tolerance=tol, point=x0[0].copy(), time=time, transient=n_tr * tau,
+        t0=float(t0), times=times[n_tr + 1: n_tr + 1 + done], running=running, block_means=block_means,
+        outcome=outcome, steps=int(run.steps[0]), seconds=run.seconds, provenance=provenance,
+    )
+
+
+def _convergence_problems(block_means, exps, stderr, mean_div, tol, nb, blocks) -> list[str]:
+    """Reasons (possibly none) why a finished estimate should not be trusted."""
+    out = []
+    if nb < blocks:
+        out.append(f"only {nb} of {blocks} blocks were completed")
+    worst = int(np.argmax(stderr))
+    if stderr[worst] > tol:
+        out.append(f"standard error of exponent {worst + 1} is {stderr[worst]:.2g} > tolerance {tol:.2g}; "
+                   "integrate longer")
+    half = nb // 2
+    if half >= 2:
+        a, b = block_means[:half], block_means[nb - half:]
+        gap = np.abs(a.mean(axis=0) - b.mean(axis=0))
+        noise = np.sqrt(a.var(axis=0, ddof=1) / half + b.var(axis=0, ddof=1) / half)
+        drifting = np.flatnonzero((gap > 3 * noise) & (gap > tol))
+        if drifting.size:
+            i = int(drifting[0])
+            out.append(f"exponent {i + 1} still drifts (first half {a[:, i].mean():+.4g}, second half "
+                       f"{b[:, i].mean():+.4g}); integrate longer or discard a longer transient")
+    gap = abs(float(np.sum(exps)) - mean_div)
+    if gap > 0.01 * tol:
+        out.append(f"sum of exponents differs from the mean divergence by {gap:.2g}; tighten rtol")
+    return out
