@@ -1,0 +1,168 @@
+"""Small pieces the explorers share: debouncing, parameter sliders, quick mode.
+
+Debouncing
+----------
+A slider with ``continuous_update=True`` sends a value every few milliseconds
+while it is dragged; computing a full result for each one makes the kernel fall
+behind and the widget feel stuck. :class:`Debouncer` coalesces calls on the
+running asyncio loop (the one ipykernel runs):
+
+* ``mode="throttle"`` runs at most once per ``delay`` seconds, always with the
+  latest arguments (the quick preview while dragging);
+* ``mode="debounce"`` runs once, ``delay`` seconds after the last trigger (the
+  full result when the slider has been released and stays put).
+
+Without a running loop (plain scripts, unit tests) a throttled call runs at
+once and a debounced call waits for :meth:`Debouncer.flush`, so both paths can
+be driven step by step.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import math
+import os
+from typing import Callable
+
+from flowkit.errors import FlowkitError
+
+#: Slider ranges (low, high, step) of preset parameters; others get default +- max(1, |default|).
+PARAM_RANGES: dict[str, dict[str, tuple[float, float, float]]] = {
+    "stf": {"rotation": (-2.0, 2.0, 0.01)},
+    "hill": {"strength": (0.1, 3.0, 0.01), "swirl": (0.0, 3.0, 0.01)},
+    "abc": {"A": (0.0, 2.0, 0.01), "B": (0.0, 2.0, 0.01), "C": (0.0, 2.0, 0.01)},
+    "roberts": {"B": (0.0, 2.0, 0.01), "C": (0.0, 2.0, 0.01)},
+    "circular": {"epsilon": (0.0, 2.0, 0.01), "omega": (0.1, 3.0, 0.01)},
+}
+
+
+def quick() -> bool:
+    """True when ``FLOWKIT_QUICK=1``: notebooks and gallery scripts shrink their sizes (CI)."""
+    return os.environ.get("FLOWKIT_QUICK", "") not in ("", "0")
+
+
+def param_range(flow_name: str, param: str, default: float) -> tuple[float, float, float]:
+    """(low, high, step) for a parameter slider; always contains ``default``."""
+    lo, hi, step = PARAM_RANGES.get(flow_name, {}).get(param, (math.nan, math.nan, math.nan))
+    if not math.isfinite(lo):
+        half = max(1.0, abs(default))
+        lo, hi, step = default - half, default + half, half / 100
+    return min(lo, default), max(hi, default), step
+
+
+def param_sliders(flow, on_change: Callable | None = None) -> dict:
+    """One continuously updating ``FloatSlider`` per parameter of ``flow``, keyed by name."""
+    import ipywidgets as w
+
+    sliders = {}
+    for name, value in flow.param_dict.items():
+        lo, hi, step = param_range(flow.name, name, value)
+        s = w.FloatSlider(value=value, min=lo, max=hi, step=step, description=name, continuous_update=True,
+                          readout_format=".3f", style={"description_width": "initial"},
+                          layout=w.Layout(width="95%"))
+        if on_change is not None:
+            s.observe(on_change, names="value")
+        sliders[name] = s
+    return sliders
+
+
+class Debouncer:
+    """Coalesce rapid calls of ``fn`` (see the module notes for the two modes).
+
+    Parameters
+    ----------
+    delay : float
+        Seconds: the throttle interval, or the quiet time before a debounced call.
+    fn : callable
+        Called with the arguments of the latest :meth:`trigger`.
+    mode : {"throttle", "debounce"}
+    """
+
+    def __init__(self, delay: float, fn: Callable, mode: str = "debounce"):
+        if mode not in ("throttle", "debounce"):
+            raise FlowkitError(f"`mode` must be 'throttle' or 'debounce'; got {mode!r}")
+        if not (delay >= 0 and math.isfinite(delay)):
+            raise FlowkitError(f"`delay` must be a non-negative number of seconds; got {delay!r}")
+        self.delay = float(delay)
+        self.fn = fn
+        self.mode = mode
+        self._args: tuple = ()
+        self._pending = False
+        self._handle = None
+
+    @property
+    def pending(self) -> bool:
+        """True while a call is waiting (for its timer, or for :meth:`flush`)."""
+        return self._pending
+
+    def trigger(self, *args) -> None:
+        """Ask for a call with ``args`` (the latest arguments win)."""
+        self._args = args
+        self._pending = True
+        try:
+            loop = asyncio.get_running_loop()
+        except RuntimeError:  # no event loop: throttled calls run now, debounced ones wait for flush()
+            if self.mode == "throttle":
+                self.flush()
+            return
+        if self.mode == "debounce" and self._handle is not None:
+            self._handle.cancel()
+            self._handle = None
+        if self._handle is None:
+            self._handle = loop.call_later(self.delay, self._fire)
+
+    def cancel(self) -> None:
+        """Drop a waiting call."""
+        if self._handle is not None:
+            self._handle.cancel()
+        self._handle = None
+        self._pending = False
+
+    def flush(self) -> bool:
+        """Run a waiting call now; return whether one ran."""
+        if self._handle is not None:
+            self._handle.cancel()
+            self._handle = None
+        if not self._pending:
+            return False
+        self._fire()
+        return True
+
+    def _fire(self) -> None:
+        self._handle = None
+        self._pending = False
+        self.fn(*self._args)
+
+
+class PlaneControls:
+    """A normal picker (x, y, z) and an offset slider whose range follows the flow's domain."""
+
+    def __init__(self):
+        import ipywidgets as w
+
+        self.normal = w.ToggleButtons(options=["x", "y", "z"], description="normal", style={"button_width": "40px"})
+        self.offset = w.FloatSlider(description="offset", continuous_update=True, readout_format=".3f",
+                                    layout=w.Layout(width="95%"))
+
+    @property
+    def widgets(self) -> list:
+        return [self.normal, self.offset]
+
+    def observe(self, handler: Callable) -> None:
+        self.normal.observe(handler, names="value")
+        self.offset.observe(handler, names="value")
+
+    def reset(self, flow, normal: str | None, offset: float) -> None:
+        """Fit the offset range to ``flow``'s domain, then set ``normal`` (default y in the ball, z in the box)."""
+        if flow.domain == "ball":
+            lo, hi = -0.9, 0.9
+        elif flow.domain == "periodic":
+            lo, hi = 0.0, 2 * math.pi
+        else:
+            lo, hi = -5.0, 5.0
+        s = self.offset
+        with s.hold_trait_notifications():
+            s.min, s.max = min(lo, -abs(offset)) - 1, max(hi, abs(offset)) + 1  # never clamp on the way
+            s.value = min(max(float(offset), lo), hi)
+            s.min, s.max, s.step = lo, hi, (hi - lo) / 200
+        self.normal.value = normal or ("y" if flow.domain == "ball" else "z")
