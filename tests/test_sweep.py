@@ -116,3 +116,16 @@ def test_bad_sweep_input_is_refused_clearly(tmp_path):
         run_sweep(small_spec(), tmp_path / "x", scheduler="tcp://127.0.0.1:9", progress=False)
     assert time.time() - t0 < 15
     assert not (tmp_path / "x").exists()
+
+
+def test_lyapunov_and_chaotic_fraction_measures_see_the_integrable_case(tmp_path):
+    # stf with rotation 0 is integrable (J. Fluid Mech. 212, 1990): no chaotic orbits, and the
+    # largest exponent is small; with rotation it is chaotic (same source).
+    spec = SweepSpec(flow={"preset": "stf"}, axes={"rotation": [0.0, 0.5]},
+                     measures=["lyapunov", "chaotic_fraction"],
+                     options={"lyapunov": {"time": 60.0}, "chaotic_fraction": {"n": 16, "time": 60.0}})
+    out = run_sweep(spec, tmp_path / "s", progress=False)
+    integrable, chaotic = out["points"]
+    assert integrable["measures"]["chaotic_fraction"]["value"] == 0.0
+    assert chaotic["measures"]["chaotic_fraction"]["value"] > 0.5
+    assert integrable["measures"]["lyapunov"]["value"] < chaotic["measures"]["lyapunov"]["value"]

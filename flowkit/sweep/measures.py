@@ -42,8 +42,45 @@ def mean_ftle(flow: Flow, seed: int, particles: int = 64, time: float = 10.0, rt
     }
 
 
+def largest_lyapunov(flow: Flow, seed: int, point=None, time: float = 200.0, transient: float | None = None,
+                     rtol: float = 1e-9) -> dict:
+    """Largest Lyapunov exponent of one orbit (QR method, block standard error).
+
+    The orbit starts at ``point`` or, if not given, at a random point of the
+    domain drawn from ``seed``. Extra keys: ``converged`` and the full spectrum.
+    """
+    from flowkit.chaos import random_seeds
+    from flowkit.integrate.batch import IntegratorSettings
+    from flowkit.lyapunov import lyapunov_spectrum
+
+    if point is None:
+        pts, _ = random_seeds(flow, 1, np.random.default_rng(seed))
+        point = pts[0] * (0.9 if flow.domain == "ball" else 1.0)
+    spec = lyapunov_spectrum(flow, point, time, transient=transient,
+                             settings=IntegratorSettings(rtol=rtol, atol=rtol * 1e-2))
+    return {"value": float(spec.exponents[0]), "stderr": float(spec.stderr[0]), "converged": bool(spec.converged),
+            "spectrum": [float(e) for e in spec.exponents]}
+
+
+def chaotic_fraction(flow: Flow, seed: int, n: int = 64, time: float = 100.0, threshold: float | None = None,
+                     bounds=None) -> dict:
+    """Fraction of random seeds whose orbits are chaotic (finite-time exponent above a threshold).
+
+    Standard error: binomial, sqrt(f (1 - f) / n). Extra keys: threshold, orbits used/failed.
+    """
+    from flowkit.chaos import chaotic_fraction as _cf
+
+    res = _cf(flow, n, time, threshold=threshold, bounds=bounds, seed=seed, threads=1)
+    return {"value": res.fraction, "stderr": res.stderr, "threshold": res.threshold,
+            "used": res.n_used, "failed": res.n_failed}
+
+
 #: name -> measure function. Other modules add theirs with :func:`register`.
-MEASURES: dict[str, Callable[..., dict]] = {"mean_ftle": mean_ftle}
+MEASURES: dict[str, Callable[..., dict]] = {
+    "mean_ftle": mean_ftle,
+    "lyapunov": largest_lyapunov,
+    "chaotic_fraction": chaotic_fraction,
+}
 
 
 def register(name: str, fn: Callable[..., dict]) -> None:
