@@ -152,6 +152,15 @@ def test_chaotic_fraction_with_binomial_error(quad):
     assert np.all(res.orbits.chaotic[z > 0.6]) and not np.any(res.orbits.chaotic[z < 0.4])
 
 
+def test_integrable_stokes_flow_has_no_chaotic_fraction_and_rotation_makes_it_chaotic():
+    # stf without rotation is integrable (J. Fluid Mech. 212, 1990): every orbit must fall below the
+    # stated threshold; with rotation 0.3 the same test seeds are chaotic (checks the threshold is not vacuous)
+    still = chaotic_fraction(flowkit.flow("stf", rotation=0.0), 40, 200.0, seed=2)
+    assert still.n_chaotic == 0 and still.n_failed == 0 and still.stderr == 0.0
+    stirred = chaotic_fraction(flowkit.flow("stf", rotation=0.3), 40, 200.0, seed=2)
+    assert stirred.fraction > 0.9
+
+
 def test_chaotic_fraction_needs_bounds_on_unbounded_domains(quad):
     with pytest.raises(FlowkitError, match="pass `bounds`"):
         chaotic_fraction(quad, 10, 10.0)

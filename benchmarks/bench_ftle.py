@@ -1,0 +1,180 @@
+"""FTLE field on a 256x256 grid: flowkit kernels against a vectorized-numpy RK4 of the same computation.
+
+Both sides integrate the position and the deformation gradient J (dJ/dt = grad(u) J)
+with classical RK4 at the same step from every grid point, then take
+FTLE = log(largest singular value of J) / T. The numpy version is what a user would
+write: positions (N, 3), J (N, 3, 3), the gradient as an (N, 3, 3) array and
+``G @ J``. The two results are compared (they must agree to round-off), then timed.
+flowkit's default (adaptive DOP853) is timed too, and both are compared with a tight
+DOP853 reference on a 52x52 subgrid. A hand-tuned numpy variant (structure of
+arrays, einsum) is timed for the 3-D case as a second, harder baseline.
+
+Cases: the quadratic stretch-twist-fold Stokes flow in the unit ball (plane y = 0,
+points outside the ball skipped by both), and the planar double gyre (2x2 block),
+whose cost is dominated by sin/cos, where numpy's SIMD transcendental functions
+are hard to beat.
+
+Standalone: ``python benchmarks/bench_ftle.py`` prints a summary and writes
+benchmarks/results/ftle.json. The machine may be shared: the load average is recorded.
+"""
+
+import math
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).parent))
+from _common import best_of, machine, save  # noqa: E402
+
+import flowkit  # noqa: E402
+from flowkit.ftle import GridPlane, ftle_field  # noqa: E402
+from flowkit.integrate.batch import IntegratorSettings  # noqa: E402
+
+N = 256
+
+
+# -- numpy baselines (what a user would write) -------------------------------------
+def stf_rhs(t, X, J, r):
+    x, y, z = X[:, 0], X[:, 1], X[:, 2]
+    U = np.stack([-8 * x * y + r * z, 11 * x**2 + 3 * y**2 + z**2 - 3, 2 * y * z - r * x], axis=1)
+    one = np.ones_like(x)
+    G = np.stack([np.stack([-8 * y, -8 * x, r * one], axis=1),
+                  np.stack([22 * x, 6 * y, 2 * z], axis=1),
+                  np.stack([-r * one, 2 * z, 2 * y], axis=1)], axis=1)
+    return U, G @ J
+
+
+def stf_rhs_soa(t, X, J, r):
+    """A hand-tuned variant: structure-of-arrays J (3, 3, N) and einsum instead of stacked matmul."""
+    x, y, z = X
+    U = np.stack([-8 * x * y + r * z, 11 * x**2 + 3 * y**2 + z**2 - 3, 2 * y * z - r * x])
+    G = np.array([[-8 * y, -8 * x, np.full_like(x, r)], [22 * x, 6 * y, 2 * z], [np.full_like(x, -r), 2 * z, 2 * y]])
+    return U, np.einsum("ikn,kjn->ijn", G, J)
+
+
+def numpy_rk4_ftle_soa(rhs, X, T, h):
+    X = np.ascontiguousarray(X.T)
+    J = np.zeros((3, 3, X.shape[1]))
+    for i in range(3):
+        J[i, i] = 1.0
+    n = int(round(T / h))
+    t = 0.0
+    for _ in range(n):
+        k1, l1 = rhs(t, X, J)
+        k2, l2 = rhs(t + h / 2, X + h / 2 * k1, J + h / 2 * l1)
+        k3, l3 = rhs(t + h / 2, X + h / 2 * k2, J + h / 2 * l2)
+        k4, l4 = rhs(t + h, X + h * k3, J + h * l3)
+        X = X + h / 6 * (k1 + 2 * k2 + 2 * k3 + k4)
+        J = J + h / 6 * (l1 + 2 * l2 + 2 * l3 + l4)
+        t += h
+    return np.log(np.linalg.svd(J.transpose(2, 0, 1), compute_uv=False)[:, 0]) / T
+
+
+def gyre_rhs(t, X, J, A=0.1, eps=0.25, om=2 * math.pi / 10):
+    x, y = X[:, 0], X[:, 1]
+    a = eps * math.sin(om * t)
+    b = 1 - 2 * a
+    f = a * x * x + b * x
+    fx = 2 * a * x + b
+    sf, cf = np.sin(np.pi * f), np.cos(np.pi * f)
+    sy, cy = np.sin(np.pi * y), np.cos(np.pi * y)
+    U = np.stack([-np.pi * A * sf * cy, np.pi * A * cf * sy * fx], axis=1)
+    G = np.stack([np.stack([-np.pi**2 * A * cf * fx * cy, np.pi**2 * A * sf * sy], axis=1),
+                  np.stack([np.pi * A * sy * (2 * a * cf - np.pi * sf * fx * fx), np.pi**2 * A * cf * cy * fx],
+                           axis=1)], axis=1)
+    return U, G @ J
+
+
+def numpy_rk4_ftle(rhs, X, T, h, dim):
+    J = np.broadcast_to(np.eye(dim), (len(X), dim, dim)).copy()
+    n = int(round(T / h))
+    t = 0.0
+    for _ in range(n):
+        k1, l1 = rhs(t, X, J)
+        k2, l2 = rhs(t + h / 2, X + h / 2 * k1, J + h / 2 * l1)
+        k3, l3 = rhs(t + h / 2, X + h / 2 * k2, J + h / 2 * l2)
+        k4, l4 = rhs(t + h, X + h * k3, J + h * l3)
+        X = X + h / 6 * (k1 + 2 * k2 + 2 * k3 + k4)
+        J = J + h / 6 * (l1 + 2 * l2 + 2 * l3 + l4)
+        t += h
+    return np.log(np.linalg.svd(J, compute_uv=False)[:, 0]) / T
+
+
+# -- one case ----------------------------------------------------------------------
+def run_case(name, flow, plane, T, h, numpy_fn, numpy_tuned=None):
+    rk4 = IntegratorSettings(method="rk4", step=h)
+    dop = IntegratorSettings(rtol=1e-9, atol=1e-11)
+    ftle_field(flow, plane, (4, 4), h, settings=rk4, threads=1)  # compile
+    ftle_field(flow, plane, (4, 4), h, settings=dop, threads=1)
+    fields = {}
+
+    def timed(settings, threads, repeat):
+        def go():
+            fields[(settings.method, threads)] = ftle_field(flow, plane, (N, N), T, settings=settings, threads=threads)
+        return best_of(go, repeat)
+
+    t_rk4 = {th: timed(rk4, th, 2) for th in (1, 2)}
+    t_dop = {th: timed(dop, th, 1) for th in (1, 2)}
+    ours = fields[("rk4", 2)]
+    inside = np.isfinite(ours.values)
+    pts = ours.points[inside]
+    t0 = time.perf_counter()
+    np_vals = numpy_fn(pts)
+    t_numpy = time.perf_counter() - t0
+    # accuracy against a tight DOP853 reference on every 5th grid line (52 x 52 = the same points)
+    sub = (slice(None, None, 5), slice(None, None, 5))
+    ref = ftle_field(flow, plane, (52, 52), T, settings=IntegratorSettings(rtol=1e-12, atol=1e-14)).values
+    np_grid = np.full(ours.values.shape, np.nan)
+    np_grid[inside] = np_vals
+    ok = np.isfinite(ref) & np.isfinite(ours.values[sub])
+    err = lambda a: float(np.max(np.abs(a[sub][ok] - ref[ok])))  # noqa: E731
+    res = {
+        "case": name, "grid": [N, N], "points_integrated": int(inside.sum()), "time": T, "rk4_step": h,
+        "numpy_rk4_seconds": t_numpy,
+        "flowkit_rk4_seconds": {"1": t_rk4[1], "2": t_rk4[2]},
+        "speedup_rk4_vs_numpy": {"1": t_numpy / t_rk4[1], "2": t_numpy / t_rk4[2]},
+        "two_thread_scaling_rk4": t_rk4[1] / t_rk4[2],
+        "flowkit_dop853_rtol1e-9_seconds": {"1": t_dop[1], "2": t_dop[2]},
+        "speedup_dop853_vs_numpy": {"1": t_numpy / t_dop[1], "2": t_numpy / t_dop[2]},
+        "two_thread_scaling_dop853": t_dop[1] / t_dop[2],
+        "max_abs_diff_flowkit_rk4_vs_numpy_rk4": float(np.max(np.abs(ours.values[inside] - np_vals))),
+        "max_abs_error_vs_tight_reference": {"rk4": err(np_grid), "flowkit_dop853_rtol1e-9": err(fields[("dop853", 2)].values)},
+    }
+    print(f"{name}: {inside.sum()} points, T = {T}, RK4 step {h}")
+    print(f"  numpy RK4 {t_numpy:.3f} s | flowkit RK4 {t_rk4[1]:.3f} s (1 thread), {t_rk4[2]:.3f} s (2 threads) "
+          f"-> {t_numpy / t_rk4[1]:.1f}x / {t_numpy / t_rk4[2]:.1f}x; scaling {t_rk4[1] / t_rk4[2]:.2f}x")
+    print(f"  flowkit DOP853 rtol 1e-9: {t_dop[1]:.3f} s / {t_dop[2]:.3f} s -> {t_numpy / t_dop[1]:.1f}x / "
+          f"{t_numpy / t_dop[2]:.1f}x vs numpy RK4; scaling {t_dop[1] / t_dop[2]:.2f}x")
+    print(f"  agreement flowkit RK4 vs numpy RK4: {res['max_abs_diff_flowkit_rk4_vs_numpy_rk4']:.1e}; "
+          f"error vs tight reference: RK4 {res['max_abs_error_vs_tight_reference']['rk4']:.1e}, "
+          f"DOP853 {res['max_abs_error_vs_tight_reference']['flowkit_dop853_rtol1e-9']:.1e}")
+    if numpy_tuned is not None:
+        t0 = time.perf_counter()
+        tuned = numpy_tuned(pts)
+        t_tuned = time.perf_counter() - t0
+        res.update(numpy_tuned_rk4_seconds=t_tuned,
+                   speedup_rk4_vs_numpy_tuned={"1": t_tuned / t_rk4[1], "2": t_tuned / t_rk4[2]},
+                   max_abs_diff_numpy_tuned=float(np.max(np.abs(tuned - np_vals))))
+        print(f"  hand-tuned numpy (einsum, structure of arrays) {t_tuned:.3f} s -> flowkit RK4 "
+              f"{t_tuned / t_rk4[1]:.1f}x / {t_tuned / t_rk4[2]:.1f}x")
+    return res
+
+
+def main():
+    before = machine()["load_average"]
+    r = 0.3
+    stf = run_case("stf rotation=0.3, plane y=0", flowkit.flow("stf", rotation=r),
+                   GridPlane.coordinate("y", 0.0, None), 2.0, 0.01,
+                   lambda p: numpy_rk4_ftle(lambda t, X, J: stf_rhs(t, X, J, r), p, 2.0, 0.01, 3),
+                   lambda p: numpy_rk4_ftle_soa(lambda t, X, J: stf_rhs_soa(t, X, J, r), p, 2.0, 0.01))
+    gyre = run_case("double-gyre, plane z=0", flowkit.flow("double-gyre"),
+                    GridPlane.coordinate("z", 0.0, (0.0, 2.0, 0.0, 1.0)), 5.0, 0.05,
+                    lambda p: numpy_rk4_ftle(gyre_rhs, p[:, :2], 5.0, 0.05, 2))
+    save("ftle", {"load_average_before": before, "load_average_after": machine()["load_average"],
+                  "cases": [stf, gyre]})
+
+
+if __name__ == "__main__":
+    main()
