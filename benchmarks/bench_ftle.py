@@ -55,20 +55,11 @@ def stf_rhs_soa(t, X, J, r):
 
 
 def numpy_rk4_ftle_soa(rhs, X, T, h):
-    X = np.ascontiguousarray(X.T)
-    J = np.zeros((3, 3, X.shape[1]))
+    """RK4 on the structure-of-arrays layout (X (3, N), J (3, 3, N))."""
+    J = np.zeros((3, 3, len(X)))
     for i in range(3):
         J[i, i] = 1.0
-    n = int(round(T / h))
-    t = 0.0
-    for _ in range(n):
-        k1, l1 = rhs(t, X, J)
-        k2, l2 = rhs(t + h / 2, X + h / 2 * k1, J + h / 2 * l1)
-        k3, l3 = rhs(t + h / 2, X + h / 2 * k2, J + h / 2 * l2)
-        k4, l4 = rhs(t + h, X + h * k3, J + h * l3)
-        X = X + h / 6 * (k1 + 2 * k2 + 2 * k3 + k4)
-        J = J + h / 6 * (l1 + 2 * l2 + 2 * l3 + l4)
-        t += h
+    J = rk4_loop(rhs, np.ascontiguousarray(X.T), J, T, h)
     return np.log(np.linalg.svd(J.transpose(2, 0, 1), compute_uv=False)[:, 0]) / T
 
 
@@ -87,11 +78,10 @@ def gyre_rhs(t, X, J, A=0.1, eps=0.25, om=2 * math.pi / 10):
     return U, G @ J
 
 
-def numpy_rk4_ftle(rhs, X, T, h, dim):
-    J = np.broadcast_to(np.eye(dim), (len(X), dim, dim)).copy()
-    n = int(round(T / h))
+def rk4_loop(rhs, X, J, T, h):
+    """Classical RK4 on (X, J) with ``rhs(t, X, J) -> (dX, dJ)``; returns J at time T."""
     t = 0.0
-    for _ in range(n):
+    for _ in range(int(round(T / h))):
         k1, l1 = rhs(t, X, J)
         k2, l2 = rhs(t + h / 2, X + h / 2 * k1, J + h / 2 * l1)
         k3, l3 = rhs(t + h / 2, X + h / 2 * k2, J + h / 2 * l2)
@@ -99,6 +89,12 @@ def numpy_rk4_ftle(rhs, X, T, h, dim):
         X = X + h / 6 * (k1 + 2 * k2 + 2 * k3 + k4)
         J = J + h / 6 * (l1 + 2 * l2 + 2 * l3 + l4)
         t += h
+    return J
+
+
+def numpy_rk4_ftle(rhs, X, T, h, dim):
+    """RK4 with positions (N, dim) and J (N, dim, dim); FTLE from numpy's SVD."""
+    J = rk4_loop(rhs, X, np.broadcast_to(np.eye(dim), (len(X), dim, dim)).copy(), T, h)
     return np.log(np.linalg.svd(J, compute_uv=False)[:, 0]) / T
 
 

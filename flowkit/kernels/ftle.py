@@ -128,40 +128,26 @@ def _ftle_rk4_point3(x, y, z, t0, h, nsteps, p, bounded):
 
 
 @njit(cache=CACHE)
+def _rate2(x, y, z, a, b, c, d, t, p):
+    """Derivative of the planar state: in-plane velocity and (grad u) J for J = [[a, b], [c, d]]."""
+    u, v, _ = velocity(x, y, z, t, p)
+    g = gradient(x, y, z, t, p)
+    return u, v, g[0] * a + g[1] * c, g[0] * b + g[1] * d, g[3] * a + g[4] * c, g[3] * b + g[4] * d
+
+
+@njit(cache=CACHE)
 def _ftle_rk4_point2(x, y, z, t0, h, nsteps, p, bounded):
     a, b, c, d = 1.0, 0.0, 0.0, 1.0
     for k in range(nsteps):
         t = t0 + k * h
-        u1, v1, _ = velocity(x, y, z, t, p)
-        g = gradient(x, y, z, t, p)
-        a1 = g[0] * a + g[1] * c
-        b1 = g[0] * b + g[1] * d
-        c1 = g[3] * a + g[4] * c
-        d1 = g[3] * b + g[4] * d
-        xm, ym, tm = x + 0.5 * h * u1, y + 0.5 * h * v1, t + 0.5 * h
-        am, bm, cm, dm = a + 0.5 * h * a1, b + 0.5 * h * b1, c + 0.5 * h * c1, d + 0.5 * h * d1
-        u2, v2, _ = velocity(xm, ym, z, tm, p)
-        g = gradient(xm, ym, z, tm, p)
-        a2 = g[0] * am + g[1] * cm
-        b2 = g[0] * bm + g[1] * dm
-        c2 = g[3] * am + g[4] * cm
-        d2 = g[3] * bm + g[4] * dm
-        xm, ym = x + 0.5 * h * u2, y + 0.5 * h * v2
-        am, bm, cm, dm = a + 0.5 * h * a2, b + 0.5 * h * b2, c + 0.5 * h * c2, d + 0.5 * h * d2
-        u3, v3, _ = velocity(xm, ym, z, tm, p)
-        g = gradient(xm, ym, z, tm, p)
-        a3 = g[0] * am + g[1] * cm
-        b3 = g[0] * bm + g[1] * dm
-        c3 = g[3] * am + g[4] * cm
-        d3 = g[3] * bm + g[4] * dm
-        xm, ym, tm = x + h * u3, y + h * v3, t + h
-        am, bm, cm, dm = a + h * a3, b + h * b3, c + h * c3, d + h * d3
-        u4, v4, _ = velocity(xm, ym, z, tm, p)
-        g = gradient(xm, ym, z, tm, p)
-        a4 = g[0] * am + g[1] * cm
-        b4 = g[0] * bm + g[1] * dm
-        c4 = g[3] * am + g[4] * cm
-        d4 = g[3] * bm + g[4] * dm
+        hh = 0.5 * h
+        u1, v1, a1, b1, c1, d1 = _rate2(x, y, z, a, b, c, d, t, p)
+        u2, v2, a2, b2, c2, d2 = _rate2(x + hh * u1, y + hh * v1, z, a + hh * a1, b + hh * b1, c + hh * c1,
+                                        d + hh * d1, t + hh, p)
+        u3, v3, a3, b3, c3, d3 = _rate2(x + hh * u2, y + hh * v2, z, a + hh * a2, b + hh * b2, c + hh * c2,
+                                        d + hh * d2, t + hh, p)
+        u4, v4, a4, b4, c4, d4 = _rate2(x + h * u3, y + h * v3, z, a + h * a3, b + h * b3, c + h * c3,
+                                        d + h * d3, t + h, p)
         s = h / 6.0
         x += s * (u1 + 2.0 * (u2 + u3) + u4)
         y += s * (v1 + 2.0 * (v2 + v3) + v4)
