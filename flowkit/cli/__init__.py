@@ -18,7 +18,7 @@ import sys
 from flowkit.errors import FlowkitError
 
 #: Subcommand modules, in the order shown by ``flowkit --help``.
-COMMANDS = ["flows", "describe", "check", "sweep", "cache", "lyapunov", "ftle"]
+COMMANDS = ["flows", "describe", "check", "sweep", "cache", "lyapunov", "ftle", "stretch"]
 
 
 def _jsonable(obj):

@@ -35,6 +35,7 @@ TEMPLATES: list[str] = [
     "splitting",
     "lyapunov",
     "ftle",
+    "stretching",
 ]
 
 _STUB_MARK = "# flowkit:stub"
