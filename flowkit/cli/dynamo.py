@@ -1,0 +1,91 @@
+"""``flowkit dynamo FLOW``: growth rate of the leading magnetic mode at finite Rm (periodic box).
+
+One Rm (``--rm``), a curve (``--rm-list``), or the onset (``--critical``, which
+scans ``--rm-list`` upward for the first sign change and refines it).
+"""
+
+from __future__ import annotations
+
+from flowkit.cli.common import add_flow_args, flow_from_args
+from flowkit.errors import FlowkitError
+
+
+def add(sub):
+    p = sub.add_parser("dynamo", help="diffusive dynamo growth rate vs magnetic Reynolds number (2*pi box)")
+    add_flow_args(p)
+    p.add_argument("--rm", type=float, help="magnetic Reynolds number Rm = 1/eta")
+    p.add_argument("--rm-list", metavar="R1,R2,...", help="comma-separated Rm values for a sweep")
+    p.add_argument("--critical", action="store_true",
+                   help="find the critical Rm (first decay-to-growth sign change along --rm-list, then Brent)")
+    p.add_argument("--resolution", type=int, default=32, help="grid points per side N (even, default 32)")
+    p.add_argument("--method", choices=["eigen", "march"], default="eigen",
+                   help="eigen: Arnoldi on the operator (Floquet map if time-periodic); march: time stepping + fit")
+    p.add_argument("--check-resolution", default="auto", metavar="M",
+                   help="second resolution for the convergence estimate ('auto' = 2N/3, 'none' to skip)")
+    p.add_argument("--tolerance", type=float, default=1e-3,
+                   help="growth rates at N and M must agree within this to count as converged (default 1e-3)")
+    p.add_argument("--save", metavar="PATH", help="save the result (.npz; single Rm keeps the mode on the grid)")
+    p.add_argument("--no-progress", action="store_true", help="hide the progress bar of sweeps")
+    return p
+
+
+def _rm_list(text: str | None) -> list[float] | None:
+    if text is None:
+        return None
+    try:
+        return [float(v) for v in text.split(",") if v.strip()]
+    except ValueError:
+        raise FlowkitError(f"--rm-list expects comma-separated numbers, e.g. 5,10,20; got {text!r}") from None
+
+
+def _check(text: str):
+    if text in ("auto", None):
+        return "auto"
+    if text.lower() == "none":
+        return None
+    try:
+        return int(text)
+    except ValueError:
+        raise FlowkitError(f"--check-resolution expects an even integer, 'auto' or 'none'; got {text!r}") from None
+
+
+def run(args) -> dict:
+    from flowkit.dynamo import critical_rm, growth_rate, sweep_rm
+
+    flow = flow_from_args(args)
+    rms = _rm_list(args.rm_list)
+    check = _check(args.check_resolution)
+    common = {"resolution": args.resolution, "method": args.method}
+    if args.critical:
+        kw = {} if rms is None else {"rm_list": rms}
+        res = critical_rm(flow, check_resolution=check, progress=not args.no_progress, **common, **kw)
+        out = res.summary()
+    elif rms is not None:
+        res = sweep_rm(flow, rms, check_resolution=check, tolerance=args.tolerance,
+                       progress=not args.no_progress, **common)
+        out = res.summary()
+    elif args.rm is not None:
+        res = growth_rate(flow, args.rm, check_resolution=check, tolerance=args.tolerance,
+                          keep_mode=bool(args.save), **common)
+        out = res.summary()
+    else:
+        raise FlowkitError("say what to compute: --rm R (one value), --rm-list R1,R2,... (a curve) or --critical")
+    if args.save:
+        out["saved"] = str(res.save(args.save))
+    return out
+
+
+def human(result: dict) -> str:
+    if "rm_critical" in result:
+        return (f"critical Rm = {result['rm_critical']:.4f} +/- {result['uncertainty']:.2g} "
+                f"(bracket {result['bracket']}, frequency {result['frequency']:.4g}, N = {result['resolution']})")
+    if "points" in result:
+        lines = [f"{'Rm':>10} {'growth rate':>13} {'frequency':>10} {'error':>9} converged"]
+        for p in result["points"]:
+            lines.append(f"{p['rm']:>10.4g} {p['growth_rate']:>13.6f} {p['frequency']:>10.5f} "
+                         f"{p['error_estimate']:>9.2g} {p['converged']}")
+        return "\n".join(lines)
+    return (f"growth rate {result['growth_rate']:.6f}, frequency {result['frequency']:.6f} at Rm = {result['rm']:g}, "
+            f"N = {result['resolution']} ({result['method']}); error estimate {result['error_estimate']:.2g} "
+            f"vs N = {result['check'].get('resolution')}, converged: {result['converged']}; "
+            f"{result['seconds']:.1f} s")

@@ -1,0 +1,25 @@
+"""Kinematic dynamo growth rates at finite magnetic Reynolds number (periodic box).
+
+A pseudo-spectral solver of ``dB/dt = curl(u x B) + Rm^-1 lap B`` in the 2*pi
+box for any steady or time-periodic periodic flow of the library:
+
+- :func:`growth_rate`: leading growth rate and frequency, by Arnoldi on the
+  operator (``method="eigen"``; Floquet multiplier for time-periodic flows) or by
+  time stepping and a fit with the oscillation in the model (``method="march"``),
+  with a resolution-convergence estimate;
+- :func:`sweep_rm`, :func:`critical_rm`: curves against ``Rm`` and the onset;
+- :class:`GrowthResult`, :class:`RmSweep`, :class:`CriticalRm`: results with
+  provenance, ``save``/``load`` (npz, no pickle), ``to_xarray``;
+- :mod:`flowkit.dynamo.plot`: ``plot_mode_slice``, ``plot_growth_curve``.
+
+Module map: ``spectral`` (grid, FFTs, packing), ``induction`` (operator,
+integrating-factor RK4), ``fit`` (oscillating exponential fit), ``growth``
+(the two methods), ``curves`` (sweeps, critical Rm), ``results``, ``plot``.
+"""
+
+from flowkit.dynamo.curves import critical_rm, sweep_rm
+from flowkit.dynamo.growth import growth_rate
+from flowkit.dynamo.induction import InductionOperator
+from flowkit.dynamo.results import CriticalRm, GrowthResult, RmSweep
+
+__all__ = ["growth_rate", "sweep_rm", "critical_rm", "InductionOperator", "GrowthResult", "RmSweep", "CriticalRm"]

@@ -1,0 +1,157 @@
+"""Growth rate against ``Rm`` and the critical ``Rm`` of dynamo onset."""
+
+from __future__ import annotations
+
+import math
+import time
+
+import numpy as np
+from scipy.optimize import brentq
+
+from flowkit.dynamo.growth import default_check_resolution, growth_rate
+from flowkit.dynamo.induction import check_periodic, check_rm
+from flowkit.dynamo.results import CriticalRm, RmSweep, stamp
+from flowkit.errors import FlowkitError
+
+
+def _rm_values(rms) -> list[float]:
+    try:
+        vals = [check_rm(r) for r in np.atleast_1d(np.asarray(rms, dtype=object)).ravel()]
+    except FlowkitError as exc:
+        raise FlowkitError(f"every value of `rm_list` must be positive: {exc}") from None
+    if not vals:
+        raise FlowkitError("`rm_list` is empty; pass e.g. rm_list=[5, 10, 20]")
+    return vals
+
+
+def _progress(iterable, enabled: bool, desc: str):
+    if not enabled:
+        return iterable
+    from tqdm.auto import tqdm
+
+    return tqdm(iterable, desc=desc, leave=False)
+
+
+def sweep_rm(flow, rm_list, resolution: int = 32, method: str = "eigen", progress: bool = True,
+             save_to=None, **kwargs) -> RmSweep:
+    """Growth rate of the leading mode at each ``Rm`` of ``rm_list``.
+
+    Parameters
+    ----------
+    flow : Flow
+        Periodic flow.
+    rm_list : sequence of float
+        Magnetic Reynolds numbers (any order; evaluated as given).
+    resolution, method, **kwargs
+        Passed to :func:`~flowkit.dynamo.growth.growth_rate` (``keep_mode`` is off).
+    progress : bool
+        Show a tqdm progress bar (works in notebooks and terminals).
+    save_to : path, optional
+        Save the sweep after every point, so an interrupted run keeps what finished.
+
+    Returns
+    -------
+    RmSweep
+        Ctrl-C stops the sweep and returns the finished points
+        (``provenance["interrupted"]`` is then true).
+    """
+    check_periodic(flow)
+    rms = _rm_values(rm_list)
+    kwargs.setdefault("keep_mode", False)
+    t0 = time.perf_counter()
+    done: list = []
+    sweep = None
+    interrupted = False
+    try:
+        for rm in _progress(rms, progress, f"growth rate ({flow.name}, N={resolution})"):
+            done.append(growth_rate(flow, rm, resolution, method, **kwargs))
+            sweep = _collect(flow, done, resolution, method, kwargs, t0)
+            if save_to is not None:
+                sweep.save(save_to)
+    except KeyboardInterrupt:
+        interrupted = True
+    sweep = _collect(flow, done, resolution, method, kwargs, t0)
+    sweep.provenance["interrupted"] = interrupted
+    return sweep
+
+
+def _collect(flow, done, resolution, method, kwargs, t0) -> RmSweep:
+    return RmSweep(
+        rm=np.array([r.rm for r in done]),
+        growth_rate=np.array([r.growth_rate for r in done]),
+        frequency=np.array([r.frequency for r in done]),
+        error_estimate=np.array([r.error_estimate for r in done]),
+        converged=[r.converged for r in done],
+        points=[r.summary() for r in done],
+        provenance=stamp(flow, {"method": method, "resolution": resolution,
+                                **{k: v for k, v in kwargs.items() if k != "keep_mode"}}),
+        seconds=time.perf_counter() - t0,
+    )
+
+
+def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution: int = 32,
+                method: str = "eigen", xtol: float = 1e-3, check_resolution="auto", progress: bool = True,
+                **settings) -> CriticalRm:
+    """Lowest ``Rm`` at which the leading growth rate crosses zero from below.
+
+    ``rm_list`` is scanned upward until the growth rate changes sign from
+    negative to positive; the root in that bracket is found by Brent's method
+    (``scipy.optimize.brentq``) to ``xtol`` (relative to ``Rm``).
+
+    Returns
+    -------
+    CriticalRm
+        ``uncertainty = xtol * Rm_c + |sigma_check(Rm_c)| / |d sigma/d Rm|``: the
+        root-finding tolerance plus the shift of the root implied by the growth
+        rate at the check resolution (``2N/3`` by default).
+    """
+    check_periodic(flow)
+    rms = sorted(_rm_values(rm_list))
+    t0 = time.perf_counter()
+    evaluations: dict[float, float] = {}
+    freqs: dict[float, float] = {}
+
+    def sigma(rm: float) -> float:
+        if rm not in evaluations:
+            r = growth_rate(flow, rm, resolution, method, check_resolution=None, keep_mode=False, **settings)
+            if not math.isfinite(r.growth_rate):
+                raise FlowkitError(f"no growth rate at Rm = {rm:g} ({r.diagnostics.get('message', '')}); "
+                                   "raise `resolution` or change the method settings")
+            evaluations[rm], freqs[rm] = r.growth_rate, r.frequency
+        return evaluations[rm]
+
+    bracket = None
+    previous = None
+    for rm in _progress(rms, progress, f"bracketing Rm_c ({flow.name})"):
+        s = sigma(rm)
+        if previous is not None and sigma(previous) < 0 <= s:
+            bracket = (previous, rm)
+            break
+        previous = rm
+    if bracket is None:
+        signs = ", ".join(f"Rm={r:g}: {evaluations[r]:+.3g}" for r in sorted(evaluations))
+        raise FlowkitError(
+            f"no sign change from decay to growth in `rm_list` ({signs}); widen the list "
+            "(e.g. --rm-list 1,2,5,10,20,50,100) or raise --resolution for large Rm"
+        )
+    root = brentq(sigma, *bracket, xtol=xtol * bracket[0], rtol=1e-10, full_output=False)
+    left = max(r for r in evaluations if r < root or r == bracket[0])
+    right = min(r for r in evaluations if r > root or r == bracket[1])
+    slope = (evaluations[right] - evaluations[left]) / (right - left)
+    sigma(root)
+    uncertainty = xtol * root
+    check = {}
+    if check_resolution is not None:
+        other = default_check_resolution(resolution) if check_resolution == "auto" else int(check_resolution)
+        r2 = growth_rate(flow, root, other, method, check_resolution=None, keep_mode=False, **settings)
+        check = {"resolution": other, "growth_rate_at_root": r2.growth_rate}
+        uncertainty += abs(r2.growth_rate - evaluations[root]) / abs(slope)
+    return CriticalRm(
+        rm_critical=float(root), uncertainty=float(uncertainty), bracket=[float(b) for b in bracket],
+        slope=float(slope), frequency=float(freqs[root]),
+        evaluations=[[r, evaluations[r], freqs[r]] for r in sorted(evaluations)],
+        resolution=resolution, method=method,
+        provenance={**stamp(flow, {"method": method, "resolution": resolution, "xtol": xtol,
+                                   "rm_list": rms, **settings}), "check": check},
+        seconds=time.perf_counter() - t0,
+    )
