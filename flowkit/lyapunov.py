@@ -119,8 +119,11 @@ class TangentRun:
 
 
 def run_tangent(flow: Flow, states: np.ndarray, times: np.ndarray, settings: IntegratorSettings,
-                threads: int | None = None) -> TangentRun:
-    """Run the tangent kernel over checkpoint ``times`` for every row of ``states`` (modified in place)."""
+                threads: int | None = None, max_steps: int | None = None) -> TangentRun:
+    """Run the tangent kernel over checkpoint ``times`` for every row of ``states`` (modified in place).
+
+    ``max_steps`` (default ``settings.max_steps``) bounds the steps of each row in this call.
+    """
     N, n = states.shape
     m = len(times) - 1
     ncol = (n - 3) // 3
@@ -133,7 +136,8 @@ def run_tangent(flow: Flow, states: np.ndarray, times: np.ndarray, settings: Int
     with thread_limit(threads), numba.parallel_chunksize(1):
         flow.kernels.tangent_batch(
             states, np.ascontiguousarray(times, dtype=np.float64), flow.params, settings.rtol, settings.atol,
-            float(settings.max_step), int(settings.max_steps), flow.domain == "ball",
+            float(settings.max_step), int(settings.max_steps if max_steps is None else max_steps),
+            flow.domain == "ball",
             logs, div, outcome, t_end, steps,
         )
     return TangentRun(logs, div, outcome, t_end, steps, _time.perf_counter() - t0)
@@ -360,7 +364,7 @@ def lyapunov_spectrum(
     n_tr = int(math.ceil(transient / tau - 1e-9))
     times = float(t0) + tau * np.arange(n_tr + n_keep + 1)
     k = n_exponents(flow)
-    run = run_tangent(flow, tangent_states(x0, k), times, settings)
+    run, interrupted = _run_in_pieces(flow, tangent_states(x0, k), times, settings, n_tr, per_block)
 
     logs = run.logs[0, n_tr:]
     div = run.div[0, n_tr:]
@@ -368,7 +372,10 @@ def lyapunov_spectrum(
     usable = (done // per_block) * per_block
     outcome = OUTCOME_NAMES[int(run.outcome[0])]
     reasons = []
-    if run.outcome[0] != Outcome.FINISHED:
+    if interrupted:
+        reasons.append(f"interrupted at t = {run.t_end[0]:.6g}; {done} of {n_keep} averaging intervals were "
+                       "completed and are kept")
+    elif run.outcome[0] != Outcome.FINISHED:
         reasons.append(f"orbit ended early ({outcome}) at t = {run.t_end[0]:.6g}; "
                        f"{done} of {n_keep} averaging intervals were completed")
     nb = usable // per_block
@@ -398,6 +405,36 @@ def lyapunov_spectrum(
         t0=float(t0), times=times[n_tr + 1: n_tr + 1 + done], running=running, block_means=block_means,
         outcome=outcome, steps=int(run.steps[0]), seconds=run.seconds, provenance=provenance,
     )
+
+
+def _run_in_pieces(flow, Y, times, settings, n_tr, per_block) -> tuple[TangentRun, bool]:
+    """Run the transient, then one block at a time, so Ctrl-C keeps the finished blocks.
+
+    Returns the joined run and whether it was interrupted. The step budget
+    ``settings.max_steps`` covers the whole run.
+    """
+    m = len(times) - 1
+    ncol = (Y.shape[1] - 3) // 3
+    joined = TangentRun(np.full((1, m, ncol), np.nan), np.full((1, m), np.nan), np.zeros(1, dtype=np.int8),
+                        np.array([times[0]]), np.zeros(1, dtype=np.int64), 0.0)
+    cuts = ([0, n_tr] if n_tr else [0]) + list(range(n_tr + per_block, m + 1, per_block))
+    if cuts[-1] != m:
+        cuts.append(m)
+    try:
+        for a, b in zip(cuts[:-1], cuts[1:]):
+            left = int(settings.max_steps - joined.steps[0])
+            run = run_tangent(flow, Y, times[a:b + 1], settings, max_steps=max(left, 1))
+            joined.logs[:, a:b] = run.logs
+            joined.div[:, a:b] = run.div
+            joined.outcome[:] = run.outcome
+            joined.t_end[:] = run.t_end
+            joined.steps += run.steps
+            joined.seconds += run.seconds
+            if run.outcome[0] != Outcome.FINISHED:
+                break
+    except KeyboardInterrupt:
+        return joined, True
+    return joined, False
 
 
 def _convergence_problems(block_means, exps, stderr, mean_div, tol, nb, blocks) -> list[str]:

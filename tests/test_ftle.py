@@ -177,3 +177,22 @@ def test_cli_ftle_json_writes_file_and_plot(capsys, tmp_path):
     code = main(["ftle", "abc", "--plane", "0,0,0;1,0,0", "--time", "1", "--json"])
     res = json.loads(capsys.readouterr().out)
     assert code == 2 and "POINT;U;V" in res["error"]
+
+
+def test_interrupted_field_keeps_finished_chunks(gyre, monkeypatch):
+    import flowkit.ftle as ftle_mod
+
+    real, calls = ftle_mod._run_chunk, []
+
+    def interrupted_on_second_chunk(*args, **kwargs):
+        calls.append(1)
+        if len(calls) == 2:
+            raise KeyboardInterrupt
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(ftle_mod, "_run_chunk", interrupted_on_second_chunk)
+    with pytest.warns(flowkit.FlowkitNotice, match="interrupted: 12 grid points not computed"):
+        field = ftle_field(gyre, GYRE_PLANE, (6, 4), 2.0, settings=RK4, chunk=12)
+    flat = field.outcome.ravel()
+    assert np.all(flat[:12] == 0) and np.all(flat[12:] == ftle_mod.NOT_RUN)
+    assert np.all(np.isfinite(field.values.ravel()[:12])) and not field.complete

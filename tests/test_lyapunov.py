@@ -185,3 +185,20 @@ def test_cli_lyapunov_json(capsys):
     code = main(["lyapunov", "stf", "--point", "2,0,0", "--time", "10", "--json"])
     res = json.loads(capsys.readouterr().out)
     assert code == 2 and "outside the domain" in res["error"]
+
+
+def test_interrupted_spectrum_keeps_the_finished_blocks(monkeypatch):
+    import flowkit.lyapunov as lyap
+
+    real, calls = lyap.run_tangent, []
+
+    def interrupted_on_fourth_piece(*args, **kwargs):  # transient, block 1, block 2, then Ctrl-C
+        calls.append(1)
+        if len(calls) == 4:
+            raise KeyboardInterrupt
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(lyap, "run_tangent", interrupted_on_fourth_piece)
+    s = lyap.lyapunov_spectrum(flowkit.flow("lorenz"), [1.0, 1.0, 20.0], 100.0, blocks=10)
+    assert not s.converged and s.reason.startswith("interrupted") and len(s.running) == 200
+    assert abs(s.sum + 13.0 + 2.0 / 3.0) < 1e-8 and s.exponents[0] > 0.5  # two finished blocks used
