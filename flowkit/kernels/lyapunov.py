@@ -111,6 +111,8 @@ def tangent_advance(t, y, t1, h, p, rtol, atol, hmax, max_steps, W, bounded, log
         t = t1 if landed else t + hused
         if not landed:
             h = hnext  # a shortened landing step says nothing new about the step size
+            if direction * (t1 - t) <= 16.0 * 2.220446049250313e-16 * max(abs(t), abs(t1)):
+                t = t1  # within round-off of the checkpoint: a further step would underflow
         for i in range(y.shape[0]):
             W[0, i] = W[12, i]
         if not tangent_orthonormalize(y, W[0], logs):
