@@ -72,3 +72,128 @@ def plot_lyapunov_running(ax, spectrum, **style) -> list:
     ax.set(xlabel="time", ylabel="running estimate", xscale="log")
     ax.legend(loc="best")
     return lines
+
+
+# ======================================================================================
+# Poincaré sections (flowkit.sections.Section)
+# ======================================================================================
+import math  # noqa: E402  (imports of this block kept with it)
+
+from flowkit.errors import FlowkitError  # noqa: E402
+
+
+def _orbit_colors(n: int, cmap) -> np.ndarray:
+    """One distinct colour per orbit: a qualitative map for few orbits, a cyclic one beyond."""
+    import matplotlib as mpl
+
+    if cmap is None:
+        cmap = "tab10" if n <= 10 else ("tab20" if n <= 20 else "hsv")
+    cm = mpl.colormaps[cmap] if isinstance(cmap, str) else cmap
+    if getattr(cm, "N", 256) < 64:  # qualitative map: take its entries in order
+        return np.array([cm(i % cm.N) for i in range(n)])
+    return cm(np.linspace(0.0, 1.0, n, endpoint=False) if n > 1 else [0.0])
+
+
+def section_boundary(section) -> tuple[np.ndarray, np.ndarray] | None:
+    """In-plane outline of the domain in the section plane (unit ball: a circle), or None."""
+    geom = section.geometry
+    if section.provenance.get("domain") != "ball" or geom.get("kind") != "plane":
+        return None
+    rad2 = 1.0 - geom["offset"] ** 2
+    if rad2 <= 0:
+        return None
+    phi = np.linspace(0.0, 2 * math.pi, 361)
+    return math.sqrt(rad2) * np.cos(phi), math.sqrt(rad2) * np.sin(phi)
+
+
+def plot_section(
+    ax,
+    section,
+    color_by=None,
+    *,
+    cmap=None,
+    size: float = 0.6,
+    boundary: bool = True,
+    colorbar: bool = True,
+    rasterized: bool = True,
+    labels: bool = True,
+    **scatter_kw,
+) -> list:
+    """Draw a Poincaré section on ``ax``; return the artists.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    section : Section
+    color_by : None, "orbit", str or array (n_orbits,)
+        None or "orbit": one colour per orbit. A name: a per-orbit value attached
+        with ``section.attach(name, values)`` (e.g. a chaos indicator), mapped
+        through ``cmap``. An array: per-orbit values given directly.
+    cmap : str or Colormap, optional
+        Colour map (qualitative default for orbits, "viridis" for values).
+    size : float
+        Marker area in points^2 (small: sections have many points).
+    boundary : bool
+        Draw the domain's outline in the plane (unit ball: a circle), as a vector line.
+    colorbar : bool
+        Add a colour bar when colouring by value.
+    rasterized : bool
+        Rasterize the point layer (keep True for PDFs with many points).
+    labels : bool
+        Label the axes with the in-plane directions and set equal aspect.
+    **scatter_kw
+        Passed to :meth:`matplotlib.axes.Axes.scatter`.
+
+    Returns
+    -------
+    list of Artist
+        The point layer (a PathCollection) first, then the outline and colour bar if drawn.
+    """
+    uv = section.display_coords()
+    artists = []
+    values = None
+    if color_by is None or (isinstance(color_by, str) and color_by == "orbit"):
+        colors = _orbit_colors(section.n_orbits, cmap)[section.orbit] if section.crossings_total else "k"
+        kw = {"c": colors}
+    else:
+        if isinstance(color_by, str):
+            if color_by not in section.orbit_values:
+                known = ", ".join(section.orbit_values) or "(none attached)"
+                raise FlowkitError(f"`color_by` {color_by!r} is not an attached per-orbit value; known: {known}. "
+                                   "Attach one with section.attach(name, values).")
+            values = np.asarray(section.orbit_values[color_by], dtype=np.float64)
+        else:
+            values = np.asarray(color_by, dtype=np.float64)
+            if values.shape != (section.n_orbits,):
+                raise FlowkitError(f"`color_by` array must have one value per orbit ({section.n_orbits}); got shape {values.shape}")
+        finite = values[np.isfinite(values)]
+        kw = {"c": values[section.orbit], "cmap": cmap or "viridis",
+              "vmin": float(finite.min()) if finite.size else None, "vmax": float(finite.max()) if finite.size else None}
+    kw.update(s=size, linewidths=0, marker="o")
+    kw.update(scatter_kw)
+    pts = ax.scatter(uv[:, 0], uv[:, 1], **kw)
+    pts.set_rasterized(rasterized)
+    artists.append(pts)
+    if boundary:
+        outline = section_boundary(section)
+        if outline is not None:
+            (line,) = ax.plot(*outline, color="0.3", lw=0.8)
+            artists.append(line)
+    if values is not None and colorbar:
+        cb = ax.figure.colorbar(pts, ax=ax, shrink=0.85)
+        cb.set_label(color_by if isinstance(color_by, str) else "per-orbit value")
+        artists.append(cb)
+    if labels:
+        e1, e2 = section.geometry["e1"], section.geometry["e2"]
+        ax.set_xlabel(f"u along {_vec_label(e1)}")
+        ax.set_ylabel(f"v along {_vec_label(e2)}")
+        ax.set_aspect("equal", adjustable="box")
+    return artists
+
+
+def _vec_label(e) -> str:
+    names = "xyz"
+    nz = [i for i in range(3) if abs(e[i]) > 1e-12]
+    if len(nz) == 1:
+        return ("-" if e[nz[0]] < 0 else "") + names[nz[0]]
+    return "(" + ", ".join(f"{c:.3g}" for c in e) + ")"

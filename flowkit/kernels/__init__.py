@@ -33,6 +33,7 @@ TEMPLATES: list[str] = [
     "steppers",
     "batch",
     "splitting",
+    "sections",
     "lyapunov",
     "ftle",
     "stretching",

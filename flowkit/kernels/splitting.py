@@ -10,6 +10,10 @@ sub-steps are composed symmetrically (Strang, second order) and optionally by th
 triple-jump composition (fourth order). The time is frozen at each sub-step's
 midpoint, which keeps the scheme symmetric for time-periodic flows.
 
+Kernels use ``error_model="numpy"``: a division by zero (n.u = 0 at a grazing
+crossing, a singular Newton matrix) gives inf/NaN, which is tested for, instead of
+raising inside a parallel loop.
+
 State layout as in :mod:`flowkit.kernels.steppers`: position, then tangent
 vectors; tangent vectors are mapped by the exact derivative of each numerical
 sub-step (so ``det`` of the carried Jacobian is that of the numerical map).
@@ -29,7 +33,7 @@ import numpy as np
 from flowkit.kernels._stub import CACHE, njit, prange  # flowkit:stub
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def _split_missing(x, y, z, t, p):
     """Stand-in sub-field for families that cannot be split (all NaN)."""
     nan = math.nan
@@ -49,7 +53,7 @@ SPLIT_W1 = 1.0 / (2.0 - 2.0 ** (1.0 / 3.0))
 SPLIT_W0 = 1.0 - 2.0 * SPLIT_W1
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def _split_field(which, mi, mj, frozen, t, p):
     """Sub-field ``which`` (0: a on (x, y); 1: b on (y, z)) at moving coords (mi, mj)."""
     if which == 0:
@@ -57,7 +61,7 @@ def _split_field(which, mi, mj, frozen, t, p):
     return split_b(frozen, mi, mj, t, p)
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def split_substep(which, t, y, tau, p):
     """Implicit midpoint step of length ``tau`` of one sub-field, in place.
 
@@ -114,7 +118,7 @@ def split_substep(which, t, y, tau, p):
     return 0
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def split_strang(t, y, h, p):
     """Symmetric (Strang) step a(h/2) b(h) a(h/2), second order; returns a status."""
     s = split_substep(0, t + 0.25 * h, y, 0.5 * h, p)
@@ -126,7 +130,7 @@ def split_strang(t, y, h, p):
     return split_substep(0, t + 0.75 * h, y, 0.5 * h, p)
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def split_step(t, y, h, p, order):
     """One splitting step of size ``h``: Strang (order 2) or triple jump (order 4)."""
     if order == 2:
@@ -140,7 +144,7 @@ def split_step(t, y, h, p, order):
     return split_strang(t + (SPLIT_W1 + SPLIT_W0) * h, y, SPLIT_W1 * h, p)
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def split_solve(t0, y, t1, nsteps, p, order, bounded):
     """Integrate ``y`` in place from t0 to t1 with ``nsteps`` equal splitting steps."""
     h = (t1 - t0) / nsteps
@@ -153,7 +157,7 @@ def split_solve(t0, y, t1, nsteps, p, order, bounded):
     return 0, t1, nsteps
 
 
-@njit(cache=CACHE, parallel=True)
+@njit(cache=CACHE, parallel=True, error_model="numpy")
 def split_batch_solve(Y, t0, t1, nsteps, p, order, bounded, outcome, t_end, steps):
     """Advance each row of ``Y`` in place with the splitting scheme (one seed per task)."""
     for k in prange(Y.shape[0]):

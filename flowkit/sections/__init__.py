@@ -1,0 +1,21 @@
+"""Poincaré sections: planes and stroboscopic sections of many orbits.
+
+>>> import flowkit
+>>> from flowkit.sections import Plane, poincare_section
+>>> f = flowkit.flow("stf", rotation=0.3)
+>>> sec = poincare_section(f, [[0.1, 0.0, 0.3]], Plane((0, 1, 0), 0.0, "+"), crossings=10)
+>>> sec.points.shape
+(10, 3)
+
+Modules: :mod:`~flowkit.sections.geometry` (Plane, Stroboscopic, in-plane
+basis), :mod:`~flowkit.sections.compute` (the driver),
+:mod:`~flowkit.sections.result` (the Section result and its files),
+:mod:`~flowkit.sections.check` (tolerance self-check).
+"""
+
+from flowkit.sections.check import ToleranceCheck, tolerance_check
+from flowkit.sections.compute import poincare_section, warm_sections
+from flowkit.sections.geometry import Plane, Stroboscopic
+from flowkit.sections.result import Section
+
+__all__ = ["Plane", "Stroboscopic", "Section", "poincare_section", "tolerance_check", "ToleranceCheck", "warm_sections"]

@@ -1,0 +1,137 @@
+"""Seed points for orbits: along a line or on a grid in a section plane, random in the domain, from a file.
+
+Every helper returns an (N, 3) float array. Helpers that work in a plane use
+its in-plane coordinates (u, v) (see :mod:`flowkit.sections.geometry`) and, when
+given a flow, keep only points inside its domain.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+
+from flowkit.errors import FlowkitError
+from flowkit.flows.base import Flow
+from flowkit.sections.geometry import Plane
+
+
+def _count(n, name: str) -> int:
+    if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 1:
+        raise FlowkitError(f"`{name}` must be a positive integer; got {n!r}")
+    return int(n)
+
+
+def _inside(points: np.ndarray, flow: Flow | None) -> np.ndarray:
+    if flow is None:
+        return points
+    kept = points[flow.contains(points)]
+    if flow.domain == "ball":  # stay strictly inside, off the wall where u.n = 0
+        kept = kept[np.einsum("ij,ij->i", kept, kept) < 1.0 - 1e-9]
+    if kept.shape[0] == 0:
+        raise FlowkitError(f"no seed lies inside the domain of '{flow.name}' ({flow.domain}); move the line or grid inside")
+    return kept
+
+
+def line_in_plane(plane: Plane, start, stop, n: int, flow: Flow | None = None) -> np.ndarray:
+    """``n`` evenly spaced seeds from in-plane point ``start`` = (u0, v0) to ``stop`` = (u1, v1).
+
+    With ``flow``, points outside its domain are dropped.
+    """
+    n = _count(n, "n")
+    a = np.asarray(start, dtype=np.float64)
+    b = np.asarray(stop, dtype=np.float64)
+    if a.shape != (2,) or b.shape != (2,):
+        raise FlowkitError("`start` and `stop` must be in-plane coordinates (u, v)")
+    s = np.linspace(0.0, 1.0, n)
+    uv = a + s[:, None] * (b - a)
+    return _inside(plane.point(uv[:, 0], uv[:, 1]), flow)
+
+
+def line(start, stop, n: int, flow: Flow | None = None) -> np.ndarray:
+    """``n`` evenly spaced seeds on the 3-D segment from ``start`` to ``stop``."""
+    n = _count(n, "n")
+    a = np.asarray(start, dtype=np.float64).reshape(3)
+    b = np.asarray(stop, dtype=np.float64).reshape(3)
+    s = np.linspace(0.0, 1.0, n)
+    return _inside(a + s[:, None] * (b - a), flow)
+
+
+def grid_in_plane(plane: Plane, u_range, v_range, nu: int, nv: int, flow: Flow | None = None) -> np.ndarray:
+    """A ``nu`` x ``nv`` grid of seeds over ``u_range`` x ``v_range`` of the plane (row-major in u)."""
+    nu = _count(nu, "nu")
+    nv = _count(nv, "nv")
+    u = np.linspace(*u_range, nu)
+    v = np.linspace(*v_range, nv)
+    U, V = np.meshgrid(u, v, indexing="ij")
+    return _inside(plane.point(U.ravel(), V.ravel()), flow)
+
+
+def across_domain(flow: Flow, plane: Plane, n: int) -> np.ndarray:
+    """``n`` seeds along the plane's first in-plane axis, spanning the flow's domain.
+
+    Unit ball: the chord of the plane's disc through its centre (ends excluded);
+    periodic box: one period; unbounded: u in [-2, 2]. The line is shifted by 2%
+    of its half-length along the second in-plane axis, so that no seed sits on a
+    symmetry axis through the centre (often an invariant line ending at a
+    stagnation point, whose orbit never crosses the plane).
+    """
+    n = _count(n, "n")
+    if flow.domain == "ball":
+        rad = math.sqrt(max(0.0, 1.0 - plane.offset**2))
+        if rad == 0.0:
+            raise FlowkitError(f"the plane at offset {plane.offset} does not cut the unit ball; use |offset| < 1")
+        u = rad * (np.arange(n) + 0.5) / n * 2.0 - rad
+        return plane.point(u, np.full_like(u, 0.02 * rad))
+    if flow.domain == "periodic":
+        u = 2 * math.pi * (np.arange(n) + 0.5) / n
+        return plane.point(u, np.full_like(u, 0.02 * math.pi))
+    u = np.linspace(-2.0, 2.0, n)
+    return plane.point(u, np.full_like(u, 0.04))
+
+
+def random_in_domain(flow: Flow, n: int, seed: int | None = 0) -> np.ndarray:
+    """``n`` points uniformly distributed in the flow's domain (unbounded: the box [-2, 2]^3)."""
+    n = _count(n, "n")
+    rng = np.random.default_rng(seed)
+    if flow.domain == "ball":
+        v = rng.normal(size=(n, 3))
+        v /= np.linalg.norm(v, axis=1)[:, None]
+        return v * (rng.random(n) ** (1 / 3))[:, None] * (1.0 - 1e-9)
+    if flow.domain == "periodic":
+        return rng.random((n, 3)) * 2 * math.pi
+    return (rng.random((n, 3)) - 0.5) * 4.0
+
+
+def read_seed_file(path) -> np.ndarray:
+    """Seeds from a text file: one ``x y z`` per line (blank lines and ``#`` comments allowed)."""
+    path = Path(path)
+    try:
+        text = path.read_text()
+    except OSError as exc:
+        raise FlowkitError(f"cannot read seed file {str(path)!r}: {exc.strerror}") from None
+    rows = []
+    for lineno, raw in enumerate(text.splitlines(), start=1):
+        body = raw.split("#", 1)[0].strip()
+        if not body:
+            continue
+        parts = body.replace(",", " ").split()
+        try:
+            vals = [float(v) for v in parts]
+        except ValueError:
+            raise FlowkitError(f"seed file {str(path)!r} line {lineno}: expected three numbers 'x y z'; got {raw.strip()!r}") from None
+        if len(vals) != 3 or not all(math.isfinite(v) for v in vals):
+            raise FlowkitError(f"seed file {str(path)!r} line {lineno}: expected three finite numbers 'x y z'; got {raw.strip()!r}")
+        rows.append(vals)
+    if not rows:
+        raise FlowkitError(f"seed file {str(path)!r} has no seeds; write one 'x y z' per line")
+    return np.array(rows, dtype=np.float64)
+
+
+def write_seed_file(path, seeds) -> Path:
+    """Write seeds (N, 3) as text, one ``x y z`` per line (round-trips exactly)."""
+    arr = np.asarray(seeds, dtype=np.float64).reshape(-1, 3)
+    path = Path(path)
+    path.write_text("".join(f"{x!r} {y!r} {z!r}\n" for x, y, z in arr.tolist()))
+    return path
