@@ -1,0 +1,104 @@
+"""Poincaré-section speed against scipy's solve_ivp with events, thread scaling, one long orbit.
+
+Standalone: ``python benchmarks/bench_sections.py`` (or ``bash run.sh bench sections``).
+Prints a summary and writes ``benchmarks/results/bench_sections.json``. Every ratio
+is against a baseline measured in the same run; the machine's load average is
+recorded because the cores may be shared.
+
+1. stf, rotation 0.1, plane y = 0 crossed upward, rtol 1e-10, atol 1e-12, one thread:
+   crossings per second of flowkit versus ``solve_ivp(method="DOP853", events=...)``.
+2. 16 seeds: wall time on one thread versus two threads (dynamic scheduling).
+3. 40,000 crossings of one orbit, after compilation.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+from scipy.integrate import solve_ivp
+
+sys.path.insert(0, str(Path(__file__).parent))
+from _common import best_of, save  # noqa: E402
+
+import flowkit  # noqa: E402
+from flowkit.sections import Plane, poincare_section, warm_sections  # noqa: E402
+
+RTOL, ATOL = 1e-10, 1e-12
+SEED = np.array([0.1, 0.0, 0.3])
+PLANE = Plane((0, 1, 0), 0.0, "+")
+
+
+def scipy_rate(flow, n_cross: int = 40) -> tuple[float, int]:
+    """Crossings per second of solve_ivp(DOP853) with a terminal-free event on y = 0."""
+    def event(t, y):
+        return y[1]
+
+    event.direction = 1
+
+    def rhs(t, y):  # the compiled velocity, called per point: what a user would write
+        return flow.velocity(y[None], t)[0]
+
+    # the time span that holds about n_cross crossings (from a flowkit run)
+    ref = poincare_section(flow, SEED[None], PLANE, crossings=n_cross, rtol=RTOL, atol=ATOL, threads=1)
+    T = float(ref.time[-1]) + 1e-3
+    t0 = time.perf_counter()
+    sol = solve_ivp(rhs, (0.0, T), SEED, method="DOP853", rtol=RTOL, atol=ATOL, events=event)
+    dt = time.perf_counter() - t0
+    n = len(sol.t_events[0])
+    return n / dt, n
+
+
+def main() -> int:
+    load_before = os.getloadavg()
+    flow = flowkit.flow("stf", rotation=0.1)
+    compile_s = warm_sections(flow)
+
+    # 1. against scipy, one thread
+    scipy_cps, n_scipy = scipy_rate(flow)
+    K = 40_000
+    secs = best_of(lambda: poincare_section(flow, SEED[None], PLANE, crossings=K, rtol=RTOL, atol=ATOL, threads=1))
+    ours_cps = K / secs
+
+    # 2. thread scaling on 16 seeds
+    rng = np.random.default_rng(0)
+    seeds = rng.uniform(-0.6, 0.6, size=(16, 3))
+    seeds[:, 1] = 0.0
+    run16 = {}
+    for threads in (1, 2):
+        run16[threads] = best_of(lambda: poincare_section(flow, seeds, PLANE, crossings=4_000, rtol=RTOL,
+                                                          atol=ATOL, threads=threads), repeat=2)
+
+    # 3. 40,000 crossings of one orbit (all threads available; one orbit uses one)
+    long_orbit = best_of(lambda: poincare_section(flow, SEED[None], PLANE, crossings=K, rtol=RTOL, atol=ATOL))
+    sec = poincare_section(flow, SEED[None], PLANE, crossings=K, rtol=RTOL, atol=ATOL)
+    load_after = os.getloadavg()
+
+    data = {
+        "flow": flow.provenance()["flow"], "parameters": flow.param_dict, "rtol": RTOL, "atol": ATOL,
+        "plane": PLANE.as_dict(), "compile_seconds": compile_s,
+        "scipy_dop853_events": {"crossings": n_scipy, "crossings_per_second": scipy_cps},
+        "flowkit_one_thread": {"crossings": K, "seconds": secs, "crossings_per_second": ours_cps},
+        "speedup_vs_scipy": ours_cps / scipy_cps,
+        "batch16": {"crossings_per_orbit": 4_000, "seconds_1_thread": run16[1], "seconds_2_threads": run16[2],
+                    "speedup_2_threads": run16[1] / run16[2]},
+        "long_orbit": {"crossings": K, "seconds": long_orbit, "steps": int(sec.steps[0]),
+                       "outcome": sec.outcome_names()[0]},
+        "load_average_before": load_before, "load_average_after": load_after,
+    }
+    print(f"compile (or cache load): {compile_s:.2f} s")
+    print(f"scipy DOP853 + events : {scipy_cps:10.1f} crossings/s ({n_scipy} crossings)")
+    print(f"flowkit, 1 thread     : {ours_cps:10.1f} crossings/s  -> {ours_cps / scipy_cps:.0f}x scipy")
+    print(f"16 seeds x 4000       : 1 thread {run16[1]:.3f} s, 2 threads {run16[2]:.3f} s "
+          f"-> {run16[1] / run16[2]:.2f}x")
+    print(f"one orbit, {K} crossings: {long_orbit:.3f} s ({sec.steps[0]} steps)")
+    print(f"load average before {load_before}, after {load_after} (2 cores; others may share them)")
+    save("bench_sections", data)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
