@@ -129,3 +129,16 @@ def test_lyapunov_and_chaotic_fraction_measures_see_the_integrable_case(tmp_path
     assert integrable["measures"]["chaotic_fraction"]["value"] == 0.0
     assert chaotic["measures"]["chaotic_fraction"]["value"] > 0.5
     assert integrable["measures"]["lyapunov"]["value"] < chaotic["measures"]["lyapunov"]["value"]
+
+
+def test_line_stretching_and_dynamo_measures_on_exact_cases():
+    from flowkit.sweep.measures import dynamo_growth, line_stretching
+
+    # a material segment in uniform strain u = (a x, -a y, 0) grows as e^{a t} once aligned (exact)
+    strain = flowkit.custom_flow(["a*x", "-a*y", "0"], params={"a": 0.5})
+    out = line_stretching(strain, seed=0, time=8.0, max_points=20_000)
+    assert abs(out["value"] - 0.5) < 0.02
+    # fluid at rest: the slowest-decaying field mode (|k| = 1) decays at exactly -1/Rm
+    rest = flowkit.custom_flow(["0", "0", "0"], domain="periodic", name="rest")
+    out = dynamo_growth(rest, seed=0, rm=4.0, resolution=12)
+    assert abs(out["value"] + 0.25) < 1e-8

@@ -75,11 +75,39 @@ def chaotic_fraction(flow: Flow, seed: int, n: int = 64, time: float = 100.0, th
             "used": res.n_used, "failed": res.n_failed}
 
 
+def line_stretching(flow: Flow, seed: int, time: float = 10.0, max_points: int = 200_000) -> dict:
+    """Exponential growth rate of a material line's length (adaptive point insertion).
+
+    The default line is the generic segment of :func:`flowkit.lines.default_curve`;
+    the rate is the slope of ln L over the fit window with its block error bar.
+    """
+    from flowkit.lines import material_line
+
+    res = material_line(flow, time, max_points=max_points, threads=1)
+    return {"value": float(res.rate.value), "stderr": float(res.rate.stderr), "stopped": res.stopped,
+            "points": int(res.npoints[-1])}
+
+
+def dynamo_growth(flow: Flow, seed: int, rm: float = 10.0, resolution: int = 16, method: str = "eigen") -> dict:
+    """Growth rate of the fastest magnetic mode at magnetic Reynolds number ``rm`` (periodic flows).
+
+    stderr: the resolution-convergence estimate (difference to the check resolution).
+    """
+    from flowkit.dynamo import growth_rate
+
+    res = growth_rate(flow, rm, resolution=resolution, method=method, keep_mode=False, workers=1)
+    err = res.error_estimate
+    return {"value": float(res.growth_rate), "stderr": None if err != err else float(err),
+            "frequency": float(res.frequency), "converged": res.converged}
+
+
 #: name -> measure function. Other modules add theirs with :func:`register`.
 MEASURES: dict[str, Callable[..., dict]] = {
     "mean_ftle": mean_ftle,
     "lyapunov": largest_lyapunov,
     "chaotic_fraction": chaotic_fraction,
+    "line_stretching": line_stretching,
+    "dynamo_growth": dynamo_growth,
 }
 
 
