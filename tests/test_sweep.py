@@ -142,3 +142,44 @@ def test_line_stretching_and_dynamo_measures_on_exact_cases():
     rest = flowkit.custom_flow(["0", "0", "0"], domain="periodic", name="rest")
     out = dynamo_growth(rest, seed=0, rm=4.0, resolution=12)
     assert abs(out["value"] + 0.25) < 1e-8
+
+
+def test_sweep_plots_draw_the_stored_numbers(tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from flowkit.sweep.plots import plot_measure, plot_measure_map
+
+    spec = small_spec(axes={"rotation": [0.0, 0.5]})
+    run_sweep(spec, tmp_path / "s", progress=False)
+    ds = open_results(tmp_path / "s")
+    fig, ax = plt.subplots()
+    art = plot_measure(ax, ds, "mean_ftle")
+    line = art["errorbar"].lines[0]
+    np.testing.assert_array_equal(line.get_ydata(), ds["mean_ftle"].values)
+    with pytest.raises(FlowkitError, match="needs exactly two varied parameters"):
+        plot_measure_map(ax, ds, "mean_ftle")
+    plt.close(fig)
+
+
+def test_two_parameter_sweep_map(tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from flowkit.sweep.plots import plot_measure_map
+
+    spec = SweepSpec(flow={"preset": "hill"}, axes={"strength": [0.5, 1.0], "swirl": [0.0, 0.3, 0.6]},
+                     measures=["mean_ftle"], options=SMALL)
+    out = run_sweep(spec, tmp_path / "m", progress=False)
+    # sweep order is C order over the axes: the last axis varies fastest
+    assert [p["params"] for p in out["points"]][:2] == [{"strength": 0.5, "swirl": 0.0},
+                                                         {"strength": 0.5, "swirl": 0.3}]
+    ds = open_results(tmp_path / "m")
+    fig, ax = plt.subplots()
+    art = plot_measure_map(ax, ds, "mean_ftle")
+    np.testing.assert_array_equal(np.asarray(art["mesh"].get_array()).reshape(2, 3), ds["mean_ftle"].values)
+    plt.close(fig)
