@@ -197,3 +197,149 @@ def _vec_label(e) -> str:
     if len(nz) == 1:
         return ("-" if e[nz[0]] < 0 else "") + names[nz[0]]
     return "(" + ", ".join(f"{c:.3g}" for c in e) + ")"
+
+
+# ======================================================================================
+# Frozen-in fields: growth curves and material lines
+# (flowkit.stretching.StretchResult, flowkit.lines.LineResult, flowkit.flux.FluxResult)
+# ======================================================================================
+import math  # noqa: E402,F811  (this block's imports kept with it)
+
+from flowkit.errors import FlowkitError  # noqa: E402,F811
+
+
+def _growth_curves(result, p) -> list:
+    """(label, t, y, band, RateEstimate) for each curve of a frozen-in-field result."""
+    kind = type(result).__name__
+    t = np.asarray(result.times, dtype=float)
+    if kind == "StretchResult":
+        orders = list(result.p) if p is None else [float(q) for q in np.atleast_1d(p)]
+        out = [("<ln|B|>", t, result.mean_log, result.mean_log_stderr, result.field_rate)]
+        for q in orders:
+            j = int(np.flatnonzero(np.isclose(result.p, q))[0]) if np.any(np.isclose(result.p, q)) else None
+            if j is None:
+                raise FlowkitError(f"no moment of order {q} in this result; it has p = {list(result.p)}")
+            out.append((f"ln<|B|^{q:g}>", t, result.log_moments[:, j], result.log_moments_stderr[:, j],
+                        result.rate(q)))
+        return out
+    if kind == "LineResult":
+        return [("ln L (material line)", t, np.log(result.lengths), np.abs(result.length_error), result.rate)]
+    if kind == "FluxResult":
+        with np.errstate(divide="ignore", invalid="ignore"):
+            net = result.log_unsigned + np.log(np.abs(result.ratio))
+            band = result.ratio_stderr / np.abs(result.ratio)
+        return [("ln(unsigned flux)", t, result.log_unsigned, np.zeros_like(t), result.unsigned_rate),
+                ("ln|net flux|", t, net, band, result.flux_rate)]
+    raise FlowkitError(f"plot_growth takes a StretchResult, LineResult or FluxResult; got {kind}")
+
+
+def plot_growth(ax, result, *, p=None, bands: bool = True, fits: bool = True, window: bool = True,
+                colors=None, **line_kw) -> list:
+    """Growth curves with their error bands and fitted straight lines (with the rate's band).
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    result : StretchResult, LineResult or FluxResult
+        Stretching statistics (<ln|B|> and ln<|B|^p>), a material line (ln L) or
+        a flux history (ln of unsigned and of |net| flux).
+    p : float or sequence, optional
+        Moment orders to draw (StretchResult; default all).
+    bands : bool
+        Shade +- one standard error around each curve (relative errors for lengths and net flux).
+    fits : bool
+        Draw the fitted line over its window, slope = the reported rate, shaded by +- its standard error.
+    window : bool
+        Shade the fit window.
+    colors : sequence, optional
+        One colour per curve.
+    **line_kw
+        Passed to ``ax.plot`` for the curves.
+
+    Returns
+    -------
+    list of artists
+    """
+    curves = _growth_curves(result, p)
+    colors = colors or [f"C{i}" for i in range(len(curves))]
+    artists = []
+    if window and curves:
+        win = curves[-1][4].window
+        artists.append(ax.axvspan(win[0], win[1], color="0.93", zorder=0, label="fit window"))
+    for (label, t, y, band, rate), color in zip(curves, colors):
+        ok = np.isfinite(y)
+        (ln,) = ax.plot(t[ok], y[ok], color=color, label=label, **line_kw)
+        artists.append(ln)
+        if bands and np.any(np.isfinite(band[ok]) & (band[ok] > 0)):
+            e = np.where(np.isfinite(band), band, 0.0)[ok]
+            artists.append(ax.fill_between(t[ok], y[ok] - e, y[ok] + e, color=color, alpha=0.2, lw=0))
+        if fits and math.isfinite(rate.value):
+            a, b = rate.window
+            sel = ok & (t >= a - 1e-12 * max(1.0, abs(a))) & (t <= b + 1e-12 * max(1.0, abs(b)))
+            if sel.sum() >= 2:
+                tm = t[sel].mean()
+                y0 = y[sel].mean()  # least-squares line through the centroid, slope = rate
+                tt = np.linspace(a, b, 50)
+                (fl,) = ax.plot(tt, y0 + rate.value * (tt - tm), color=color, ls="--", lw=1.0,
+                                label=f"rate {rate.value:.4g} ± {rate.stderr:.2g}")
+                artists.append(fl)
+                if bands and math.isfinite(rate.stderr):
+                    spread = rate.stderr * np.abs(tt - tm)
+                    artists.append(ax.fill_between(tt, y0 + rate.value * (tt - tm) - spread,
+                                                   y0 + rate.value * (tt - tm) + spread, color=color, alpha=0.12,
+                                                   lw=0))
+    units = getattr(result, "units", "per unit time")
+    ax.set_xlabel("iteration" if units == "per iteration" else "time")
+    ax.set_ylabel("log of growing quantity")
+    return artists
+
+
+def plot_material_line(ax, result, *, times=None, cmap: str = "viridis", max_jump: float | None = None,
+                       **line_kw) -> list:
+    """A material line drawn in 3-D at several times (the stored snapshots of a LineResult).
+
+    Parameters
+    ----------
+    ax : 3-D Axes (``fig.add_subplot(projection="3d")``)
+    result : LineResult
+    times : sequence of float, optional
+        Draw the snapshots nearest these times (default: every stored snapshot).
+    cmap : str
+        Colour map over time.
+    max_jump : float, optional
+        Break the polyline where consecutive points are farther apart than this
+        (wrap-around on a torus, cuts of a discontinuous map). Default: 0.5 for
+        maps (half the unit cell), no breaks for flows.
+    **line_kw
+        Passed to ``ax.plot``.
+
+    Returns
+    -------
+    list of artists
+    """
+    from matplotlib import colormaps
+
+    if type(result).__name__ != "LineResult":
+        raise FlowkitError(f"plot_material_line takes a LineResult; got {type(result).__name__}")
+    if getattr(ax, "name", "") != "3d":
+        raise FlowkitError("plot_material_line needs 3-D axes: fig.add_subplot(projection='3d')")
+    snaps = list(result.snapshots)
+    if times is not None:
+        st = np.array([t for t, _ in snaps])
+        snaps = [snaps[int(np.argmin(np.abs(st - t)))] for t in np.atleast_1d(times)]
+    if max_jump is None and result.units == "per iteration":
+        max_jump = 0.5
+    tmax = max((t for t, _ in snaps), default=1.0) or 1.0
+    cm = colormaps[cmap]
+    artists = []
+    for t, pts in snaps:
+        P = np.array(pts, dtype=float)
+        if max_jump is not None and len(P) > 1:
+            jump = np.flatnonzero(np.linalg.norm(np.diff(P, axis=0), axis=1) > max_jump)
+            P = np.insert(P, jump + 1, np.nan, axis=0)
+        kw = {"lw": 0.6, "color": cm(t / tmax)}
+        kw.update(line_kw)
+        (ln,) = ax.plot(P[:, 0], P[:, 1], P[:, 2], label=f"t = {t:g}", **kw)
+        artists.append(ln)
+    ax.set(xlabel="x", ylabel="y", zlabel="z")
+    return artists

@@ -225,7 +225,7 @@ def window_mask(times: np.ndarray, window: tuple) -> np.ndarray:
     mask = (times >= window[0] - 1e-12 * max(1.0, abs(window[0]))) & (times <= window[1] + 1e-12 * abs(window[1]))
     if mask.sum() < 3:
         raise FlowkitError(f"the fit window [{window[0]:g}, {window[1]:g}] holds {int(mask.sum())} checkpoints; "
-                           "at least 3 are needed: widen `window` or raise `samples`")
+                           "at least 3 are needed: widen `window` or use more checkpoints (`samples`)")
     return mask
 
 

@@ -130,3 +130,26 @@ def test_interrupted_line_keeps_finished_passes(monkeypatch, tmp_path):
     back = LineResult.load(res.save(tmp_path / "line.npz"))
     np.testing.assert_array_equal(back.lengths, res.lengths)
     assert back.stopped == "interrupted" and len(back.snapshots) == len(res.snapshots)
+
+
+def test_material_line_is_drawn_in_3d_at_several_times():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from flowkit.plot import plot_growth, plot_material_line
+
+    res = material_line(flowkit.flow("cat-map"), 6, snapshots=4, snapshot_points=3000)
+    fig = plt.figure()
+    ax = fig.add_subplot(projection="3d")
+    artists = plot_material_line(ax, res)
+    assert len(artists) == len(res.snapshots) >= 4
+    # wrap-around jumps on the torus are broken with NaN, every stored point is drawn
+    x = np.asarray(artists[-1].get_data_3d()[0])
+    assert np.sum(np.isfinite(x)) == len(res.snapshots[-1][1])
+    flat = fig.add_subplot(2, 2, 4)
+    with pytest.raises(FlowkitError, match="3-D axes"):
+        plot_material_line(flat, res)
+    assert len(plot_growth(flat, res)) >= 3  # curve, fit window, fitted line
+    plt.close(fig)

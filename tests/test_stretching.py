@@ -207,3 +207,27 @@ def test_cli_reports_all_rates_with_error_bars(capsys):
     assert code == 2 and "--particles" in res["error"]
     code, res = run_json(capsys, "stretch", "stf", "--time", "-1")
     assert code == 2 and "--time" in res["error"]
+
+
+def test_growth_plot_draws_curves_bands_and_fitted_slopes():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from flowkit.plot import plot_growth
+
+    res = stretch(flowkit.flow("sfs-map", shear=0.0), 400, 10, field=[1.0, 0.0, 0.0], p=(0.5,))
+    fig, ax = plt.subplots()
+    artists = plot_growth(ax, res, p=(1.0, 2.0))
+    lines = [a for a in artists if isinstance(a, matplotlib.lines.Line2D)]
+    curves = [ln for ln in lines if ln.get_linestyle() == "-"]
+    fitted = [ln for ln in lines if ln.get_linestyle() == "--"]
+    assert len(curves) == 3 and len(fitted) == 3  # <ln|B|>, p = 1, p = 2
+    np.testing.assert_array_equal(curves[1].get_ydata(), res.log_moments[:, list(res.p).index(1.0)])
+    for ln, rate in zip(fitted, (res.field_rate, res.rate(1.0), res.rate(2.0))):
+        x, y = ln.get_data()
+        assert abs((y[-1] - y[0]) / (x[-1] - x[0]) - rate.value) < 1e-12
+    with pytest.raises(FlowkitError, match="no moment of order 7"):
+        plot_growth(ax, res, p=7)
+    plt.close(fig)

@@ -22,8 +22,8 @@ def add(sub):
     p.add_argument("--p", dest="orders", default="", metavar="P1,P2",
                    help="extra moment orders besides 1 and 2, e.g. --p 0.5,3")
     p.add_argument("--samples", type=int, default=100, help="checkpoints between 0 and --time (default 100)")
-    p.add_argument("--line-points", type=int, default=200_000,
-                   help="point budget of the material line (default 200000; 0 skips the line)")
+    p.add_argument("--line-points", type=int, default=50_000,
+                   help="point budget of the material line (default 50000; 0 skips the line)")
     p.add_argument("--flux-samples", type=int, default=2000,
                    help="Monte Carlo points on the flux surface (default 2000; 0 skips the flux)")
     p.add_argument("--rtol", type=float, default=1e-9, help="DOP853 relative tolerance (default 1e-9)")
