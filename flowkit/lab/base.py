@@ -212,7 +212,7 @@ class Explorer:
         self.showing = "preview" if preview else "full"
         if not preview:
             self.result = result
-            self.say(self._describe(result) + f" — {tac - tic:.2f} s")
+            self.say(f"{self._label(flow)}: {self._describe(result)} — {tac - tic:.2f} s")
         else:
             self.say("preview (release the slider for the full result)")
 
@@ -239,6 +239,12 @@ class Explorer:
         self.message = text
         colour = "#b00020" if error else "#333"
         self.status.value = f'<span style="color:{colour}">{html.escape(text)}</span>'
+
+    @staticmethod
+    def _label(flow: Flow) -> str:
+        """'stf, rotation = 0.3': the flow and its parameters, for titles and the status line."""
+        pars = ", ".join(f"{k} = {v:.3g}" for k, v in flow.param_dict.items())
+        return flow.name + (f", {pars}" if pars else "")
 
     def _warm_tag(self) -> str:
         """Hook: names the set of kernels :meth:`_warm` loads (a new tag warms again)."""

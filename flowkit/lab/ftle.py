@@ -142,10 +142,8 @@ class FTLEExplorer(Explorer):
         self.image.set_extent((s[0] - ds, s[-1] + ds, r[0] - dr, r[-1] + dr))
         self.image.set_clim(*finite_range(field.values))
         xl, yl = axis_name(field.plane["u"]), axis_name(field.plane["v"])
-        flow = self.flow
-        pars = ", ".join(f"{k} = {v:.3g}" for k, v in flow.param_dict.items())
         self.ax.set(xlabel=xl, ylabel=yl, xlim=(s[0] - ds, s[-1] + ds), ylim=(r[0] - dr, r[-1] + dr))
-        self.ax.set_title(f"{flow.name}{': ' + pars if pars else ''}, {field.direction} T = {field.time:.3g}"
+        self.ax.set_title(f"{self._label(self.flow)}; {field.direction} T = {field.time:.3g}"
                           + ("  (preview)" if preview else ""), fontsize=10)
 
     def _describe(self, field) -> str:

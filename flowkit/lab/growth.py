@@ -121,9 +121,7 @@ class GrowthExplorer(Explorer):
         self.window_patch.set_x(res.window[0])
         self.window_patch.set_width(res.window[1] - res.window[0])
         self.ax.legend(loc="upper left", fontsize=8)
-        flow = self.flow
-        pars = ", ".join(f"{k} = {v:.3g}" for k, v in flow.param_dict.items())
-        self.ax.set_title(f"{flow.name}{': ' + pars if pars else ''}, {res.n_used} particles"
+        self.ax.set_title(f"{self._label(self.flow)}; {res.n_used} particles"
                           + ("  (preview)" if preview else ""), fontsize=10)
 
     def _describe(self, res) -> str:

@@ -34,6 +34,11 @@ INDICATOR = "ftle"
 _LONG_WORK = 50_000
 
 
+def marker_size(n: int) -> float:
+    """Scatter marker area (points^2) that keeps n crossings readable on screen."""
+    return 4.0 if n <= 3_000 else 1.5 if n <= 30_000 else 0.5
+
+
 def default_seeds(flow: Flow, plane: Plane, n: int) -> np.ndarray:
     """``n`` seeds on a line across the section plane, inside the domain.
 
@@ -310,6 +315,7 @@ class SectionExplorer(Explorer):
 
         values, cmap, clim = self._colours(sec)
         self.scatter.set_offsets(sec.display_coords())
+        self.scatter.set_sizes([marker_size(len(values))])
         self.scatter.set_array(values)
         self.scatter.set_cmap(mpl.colormaps[cmap].with_extremes(bad="0.7"))
         self.scatter.set_clim(*clim)
@@ -321,9 +327,7 @@ class SectionExplorer(Explorer):
         if self._base.domain not in ("ball", "periodic") and len(values):
             self.ax.update_datalim(sec.display_coords())
             self.ax.autoscale_view()
-        flow = self.flow
-        pars = ", ".join(f"{k} = {v:.3g}" for k, v in flow.param_dict.items())
-        self.ax.set_title(f"{flow.name}{': ' + pars if pars else ''}" + ("  (preview)" if preview else ""),
+        self.ax.set_title(self._label(self.flow) + ("  (preview)" if preview else ""),
                           fontsize=10)
 
     def _describe(self, sec: Section) -> str:
