@@ -28,8 +28,8 @@ from flowkit.kernels._stub import CACHE, gradient, njit, prange  # flowkit:stub
 from flowkit.kernels.steppers import dop853_advance, dop853_initial_step, rhs  # flowkit:stub
 
 # Gauss–Legendre nodes on [0, 1] (two points, weights 1/2 each): 1/2 -+ sqrt(3)/6
-_GL_A = 0.5 - math.sqrt(3.0) / 6.0
-_GL_B = 0.5 + math.sqrt(3.0) / 6.0
+LYAP_GAUSS_A = 0.5 - math.sqrt(3.0) / 6.0
+LYAP_GAUSS_B = 0.5 + math.sqrt(3.0) / 6.0
 
 
 @njit(cache=CACHE)
@@ -69,7 +69,7 @@ def divergence_over_step(t, h, W, y, p):
     the start state and ``y`` the end state (as left by ``dop853_advance``).
     """
     acc = 0.0
-    for node in (_GL_A, _GL_B):
+    for node in (LYAP_GAUSS_A, LYAP_GAUSS_B):
         s = node
         h00 = (1.0 + 2.0 * s) * (1.0 - s) * (1.0 - s)
         h10 = s * (1.0 - s) * (1.0 - s)
