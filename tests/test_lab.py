@@ -19,7 +19,7 @@ matplotlib.use("Agg")
 import flowkit  # noqa: E402
 from flowkit.errors import FlowkitError  # noqa: E402
 from flowkit.lab import Debouncer, FTLEExplorer, GrowthExplorer, SectionExplorer  # noqa: E402
-from flowkit.lab.sections import append_orbits, default_seeds  # noqa: E402
+from flowkit.lab.sections import append_orbits  # noqa: E402
 from flowkit.sections import Plane, Section, poincare_section  # noqa: E402
 
 SMALL = dict(n_seeds=4, crossings=40, preview_crossings=8)
@@ -175,16 +175,6 @@ def test_picking_another_flow_rebuilds_sliders_and_frame():
     assert ex.result.provenance["flow"] == "abc"
     assert np.all((ex.scatter.get_offsets() >= 0) & (ex.scatter.get_offsets() < 2 * np.pi))
     ex.close()
-
-
-def test_default_seeds_lie_on_the_plane_inside_the_domain():
-    f = flowkit.flow("stf")
-    plane = Plane((0, 0, 1), 0.4)
-    s = default_seeds(f, plane, 7)
-    np.testing.assert_allclose(s[:, 2], 0.4, atol=1e-15)
-    assert np.all(np.linalg.norm(s, axis=1) < 1)
-    with pytest.raises(FlowkitError, match="n_seeds"):
-        default_seeds(f, plane, 0)
 
 
 def test_append_orbits_matches_one_batch(explorer):

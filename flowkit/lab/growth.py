@@ -130,22 +130,16 @@ class GrowthExplorer(Explorer):
 
     # -- exports ----------------------------------------------------------------------------
     def paper_figure(self):
-        """A new figure of the current full run: the curves with their error bands and the fit window."""
+        """A new figure of the current full run (:func:`flowkit.plot.plot_growth`: bands, fits, window)."""
         from matplotlib.figure import Figure
 
-        res = self.result
+        from flowkit.plot import plot_growth
+
         fig = Figure(figsize=(3.6, 2.8), layout="constrained")
         ax = fig.add_subplot()
-        ax.axvspan(*res.window, color="0.92", zorder=0, label="fit window")
-        curves = [("<ln|B|>", res.mean_log, res.mean_log_stderr, "k")]
-        for q in self.orders:
-            j = list(res.p).index(q)
-            curves.append((f"ln<|B|^{q:g}>", res.log_moments[:, j], res.log_moments_stderr[:, j], None))
-        for label, y, err, colour in curves:
-            (ln,) = ax.plot(res.times, y, lw=1.0, color=colour, label=label)
-            ax.fill_between(res.times, y - 2 * err, y + 2 * err, color=ln.get_color(), alpha=0.2, lw=0)
-        ax.set(xlabel="time", ylabel="log of field statistic", title=self.ax.get_title().replace("  (preview)", ""))
-        ax.legend(loc="upper left")
+        plot_growth(ax, self.result, p=list(self.orders))
+        ax.set_title(self._label(self.flow))
+        ax.legend(loc="upper left", fontsize=6)
         return fig
 
     def save_data(self, path) -> None:

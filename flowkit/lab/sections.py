@@ -24,7 +24,9 @@ from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
 from flowkit.lab.base import EXPLORER_PRESETS, Explorer, axis_name, finite_range
 from flowkit.lab.controls import PlaneControls
+from flowkit.plot import plot_section
 from flowkit.sections import Plane, Section, Stroboscopic, poincare_section, warm_sections
+from flowkit.seeding import across_domain
 
 #: Colours cycle through this many entries of ``tab20`` when colouring by orbit.
 _ORBIT_COLOURS = 20
@@ -37,29 +39,6 @@ _LONG_WORK = 50_000
 def marker_size(n: int) -> float:
     """Scatter marker area (points^2) that keeps n crossings readable on screen."""
     return 4.0 if n <= 3_000 else 1.5 if n <= 30_000 else 0.5
-
-
-def default_seeds(flow: Flow, plane: Plane, n: int) -> np.ndarray:
-    """``n`` seeds on a line across the section plane, inside the domain.
-
-    Unit ball: from near the centre to 0.9 of the radius of the plane's disc, at
-    30 degrees to the first in-plane axis. Periodic box: along the diagonal of
-    the in-plane square. Elsewhere: a unit segment through the plane's origin.
-    """
-    if not (isinstance(n, (int, np.integer)) and n >= 1):
-        raise FlowkitError(f"`n_seeds` must be a positive integer; got {n!r}")
-    s = (np.arange(n) + 0.5) / n
-    if flow.domain == "ball":
-        radius = math.sqrt(max(1.0 - plane.offset**2, 0.0))
-        if radius < 0.05:
-            raise FlowkitError(f"the plane offset {plane.offset:g} leaves no room inside the unit ball; "
-                               "choose |offset| < 0.95")
-        r = 0.9 * radius * s
-        return plane.point(r * math.cos(math.pi / 6), r * math.sin(math.pi / 6))
-    if flow.domain == "periodic":
-        d = 0.2 + (2 * math.pi - 0.4) * s
-        return plane.point(d, d)
-    return plane.point(s, s)
 
 
 def append_orbits(a: Section, b: Section) -> Section:
@@ -98,7 +77,8 @@ class SectionExplorer(Explorer):
     offset : float
         Offset of the plane along its normal.
     seeds : array (N, 3), optional
-        Starting seeds (default ``n_seeds`` on a line across the plane).
+        Starting seeds (default ``n_seeds`` across the domain in the plane,
+        :func:`flowkit.seeding.across_domain`).
     n_seeds : int
         Number of default seeds.
     crossings : int
@@ -186,7 +166,7 @@ class SectionExplorer(Explorer):
         finally:
             self._quiet = False
         self.seeds = self._user_seeds if self._user_seeds is not None and base is self._defaults else \
-            default_seeds(base, self.view, self.n_seeds)
+            across_domain(base, self.view, self.n_seeds)
         self.result = None
         self._frame()
 
@@ -337,21 +317,17 @@ class SectionExplorer(Explorer):
 
     # -- exports ---------------------------------------------------------------------------
     def paper_figure(self):
-        """A new figure of the current full section (vector axes, rasterized points)."""
+        """A new figure of the current full section (:func:`flowkit.plot.plot_section`: rasterized points)."""
         from matplotlib.figure import Figure
 
         sec = self.result
         fig = Figure(figsize=(3.4, 3.0), layout="constrained")
         ax = fig.add_subplot()
-        values, cmap, clim = self._colours(sec)
-        art = ax.scatter(*sec.display_coords().T, c=values, cmap=cmap, vmin=clim[0], vmax=clim[1], s=0.3,
-                         linewidths=0, rasterized=True, plotnonfinite=True)
-        ax.plot(*self.boundary.get_data(), color="0.3", lw=0.6)
-        ax.set(xlabel=self.ax.get_xlabel(), ylabel=self.ax.get_ylabel(), xlim=self.ax.get_xlim(),
-               ylim=self.ax.get_ylim(), aspect="equal")
-        ax.set_title(self.ax.get_title().replace("  (preview)", ""))
-        if cmap == "viridis":
-            fig.colorbar(art, ax=ax, shrink=0.8, label="finite-time largest exponent")
+        chaos = self.color_picker.value == "chaos" and INDICATOR in sec.orbit_values
+        art = plot_section(ax, sec, color_by=INDICATOR if chaos else "orbit", size=0.3, colorbar=False)
+        if chaos:
+            fig.colorbar(art[0], ax=ax, shrink=0.8, label="finite-time largest exponent")
+        ax.set(xlim=self.ax.get_xlim(), ylim=self.ax.get_ylim(), title=self._label(self.flow))
         return fig
 
     def save_data(self, path) -> None:
