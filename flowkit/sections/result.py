@@ -171,8 +171,9 @@ class Section:
                             {"flag_values": list(OUTCOME_NAMES), "flag_meanings": " ".join(
                                 n.replace(" ", "_") for n in OUTCOME_NAMES.values())}),
                 "t_end": (("orbit_id",), self.t_end),
-                "steps": (("orbit_id",), self.steps.astype(np.int64)),
-                "counts": (("orbit_id",), self.counts.astype(np.int64)),
+                # int32 and int8 only, so that every netCDF engine (netCDF3 too) can write them
+                "steps": (("orbit_id",), self.steps.astype(np.int32)),
+                "counts": (("orbit_id",), self.counts.astype(np.int32)),
                 **{_VALUE_PREFIX + k: (("orbit_id",), np.asarray(v)) for k, v in self.orbit_values.items()},
             },
             coords={"xyz": ["x", "y", "z"], "uv": ["u", "v"]},
@@ -185,6 +186,8 @@ class Section:
     def from_xarray(cls, ds) -> "Section":
         """Inverse of :meth:`to_xarray`."""
         kw = {k: np.asarray(ds[k].values) for k in CROSSING_ARRAYS + ORBIT_ARRAYS}
+        for k in ("orbit", "steps", "counts"):
+            kw[k] = kw[k].astype(np.int64)
         values = {k[len(_VALUE_PREFIX):]: np.asarray(ds[k].values) for k in ds.data_vars if k.startswith(_VALUE_PREFIX)}
         return cls(**kw, geometry=json.loads(ds.attrs["geometry"]), provenance=json.loads(ds.attrs["provenance"]),
                    orbit_values=values)
