@@ -32,7 +32,7 @@ SEED = np.array([0.1, 0.0, 0.3])
 PLANE = Plane((0, 1, 0), 0.0, "+")
 
 
-def scipy_rate(flow, n_cross: int = 40) -> tuple[float, int]:
+def scipy_rate(flow, n_cross: int = 100) -> tuple[float, int]:
     """Crossings per second of solve_ivp(DOP853) with a terminal-free event on y = 0."""
     def event(t, y):
         return y[1]
