@@ -135,11 +135,12 @@ def test_roberts_eigenvalue_is_the_best_kz_sector_of_scipy_galerkin_eigenvalues(
 
 # -- published values ------------------------------------------------------------------
 
-@pytest.mark.parametrize("rm,sign", [(7.0, -1), (12.0, +1), (19.0, -1)])
+@pytest.mark.parametrize("rm,sign", [(7.0, -1), (12.0, +1)])
 def test_abc_111_dynamo_window(rm, sign):
     # Published (from memory): the ABC flow A = B = C = 1 in the 2*pi box is a dynamo for
     # 8.9 < Rm < 17.5 (Vestnik Moskov. Univ. 1983; Geophys. Astrophys. Fluid Dyn. 36, 1986,
-    # 53-83). 16^3 agrees with 24^3 and 32^3 to ~1e-4 here (benchmarks/bench_dynamo.py).
+    # 53-83). At Rm = 7 and 12, 16^3 agrees with 24^3 to 2e-5 (benchmarks/bench_dynamo.py);
+    # the upper edge is not tested here: near Rm = 19 16^3 is not converged.
     res = growth_rate(flowkit.flow("abc"), rm, 16, "eigen", check_resolution=None)
     assert np.sign(res.growth_rate) == sign
     assert abs(res.growth_rate) > 1e-3  # clear of the resolution error

@@ -52,7 +52,8 @@ def eigen_growth(op: InductionOperator, nev=None, ncv=None, tol=1e-9, maxiter=20
     """Leading eigenvalue by Arnoldi; see the module docstring.
 
     Returns a dict with ``growth_rate``, ``frequency``, ``eigenvalues`` (all
-    converged ones, as ``[re, im]``), ``residual`` (``|L x - lambda x| / |x|``),
+    converged ones, as ``[re, im]``), ``residual`` (``|A x - a x|`` for the unit
+    eigenvector ``x`` of the operator ``A`` Arnoldi ran on: ``L`` or the Floquet map),
     ``matvecs``, ``converged`` and ``coeffs``: the real and imaginary parts of the
     mode as two compact coefficient sets, shape ``(2, 3, M)``.
     """

@@ -212,10 +212,12 @@ class Stepper:
         e2 = np.exp(-op.eta * op.grid.k2 * (h / 2))
         e1 = e2 * e2
         for j in range(nsteps):
-            tj = t + j * h
+            # stage times written the same way at every step, so the velocity sampled at
+            # the end of one step is reused (same float) at the start of the next
+            tj, tmid, tnext = t + j * h, t + (j + 0.5) * h, t + (j + 1) * h
             k1 = op.apply(c, tj, eta=0.0)
-            k2 = op.apply(e2 * (c + (h / 2) * k1), tj + h / 2, eta=0.0)
-            k3 = op.apply(e2 * c + (h / 2) * k2, tj + h / 2, eta=0.0)
-            k4 = op.apply(e1 * c + h * (e2 * k3), tj + h, eta=0.0)
+            k2 = op.apply(e2 * (c + (h / 2) * k1), tmid, eta=0.0)
+            k3 = op.apply(e2 * c + (h / 2) * k2, tmid, eta=0.0)
+            k4 = op.apply(e1 * c + h * (e2 * k3), tnext, eta=0.0)
             c = e1 * (c + (h / 6) * k1) + (h / 3) * (e2 * (k2 + k3)) + (h / 6) * k4
         return c
