@@ -281,3 +281,14 @@ def test_cli_json_has_the_promised_fields(capsys):
     assert out["resolution"] == 8 and out["converged"] is None
     code = main(["dynamo", "abc", "--rm", "-2", "--json"])
     assert code == 2 and "`rm` must be a positive" in json.loads(capsys.readouterr().out)["error"]
+
+
+def test_cli_sweep_and_critical_report_or_explain(capsys, tmp_path):
+    code = main(["dynamo", "abc", "--rm-list", "2,4", "--resolution", "8", "--check-resolution", "none",
+                 "--no-progress", "--save", str(tmp_path / "curve"), "--json"])
+    out = json.loads(capsys.readouterr().out)
+    assert code == 0 and list(out["rm"]) == [2.0, 4.0] and len(out["points"]) == 2
+    assert RmSweep.load(out["saved"]).growth_rate.tolist() == out["growth_rate"]
+    # both values decay (well below onset): no bracket, and the message says how to widen it
+    code = main(["dynamo", "abc", "--critical", "--rm-list", "1,2", "--resolution", "8", "--no-progress", "--json"])
+    assert code == 2 and "widen the list" in json.loads(capsys.readouterr().out)["error"]
