@@ -8,7 +8,33 @@ from flowkit._version import __version__
 from flowkit.errors import FlowDefinitionError, FlowkitError, FlowkitNotice
 from flowkit.flows import Flow, custom_flow, flow, lamb_flow, preset_names, surface_flow
 
-__all__ = [
+#: Analysis entry points, imported on first use so ``import flowkit`` stays light.
+_LAZY = {
+    "poincare_section": "flowkit.sections",
+    "Plane": "flowkit.sections",
+    "Stroboscopic": "flowkit.sections",
+    "lyapunov_spectrum": "flowkit.lyapunov",
+    "chaotic_fraction": "flowkit.chaos",
+    "ftle_field": "flowkit.ftle",
+    "GridPlane": "flowkit.ftle",
+    "stretch": "flowkit.stretching",
+    "material_line": "flowkit.lines",
+    "flux_growth": "flowkit.flux",
+    "growth_rate": "flowkit.dynamo",
+    "sweep_rm": "flowkit.dynamo",
+    "critical_rm": "flowkit.dynamo",
+}
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        return getattr(importlib.import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'flowkit' has no attribute {name!r}")
+
+
+__all__ = [*_LAZY, 
     "__version__",
     "Flow",
     "FlowkitError",
