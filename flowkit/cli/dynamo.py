@@ -75,6 +75,12 @@ def run(args) -> dict:
     return out
 
 
+def _num(value, spec: str) -> str:
+    """Format a number; JSON turns NaN into None, shown as n/a."""
+    width = spec.split(".")[0]
+    return format(value, spec) if value is not None else format("n/a", f">{width}" if width else "")
+
+
 def human(result: dict) -> str:
     if "rm_critical" in result:
         return (f"critical Rm = {result['rm_critical']:.4f} +/- {result['uncertainty']:.2g} "
@@ -82,10 +88,11 @@ def human(result: dict) -> str:
     if "points" in result:
         lines = [f"{'Rm':>10} {'growth rate':>13} {'frequency':>10} {'error':>9} converged"]
         for p in result["points"]:
-            lines.append(f"{p['rm']:>10.4g} {p['growth_rate']:>13.6f} {p['frequency']:>10.5f} "
-                         f"{p['error_estimate']:>9.2g} {p['converged']}")
+            lines.append(f"{p['rm']:>10.4g} {_num(p['growth_rate'], '13.6f')} {_num(p['frequency'], '10.5f')} "
+                         f"{_num(p['error_estimate'], '9.2g')} {p['converged']}")
         return "\n".join(lines)
-    return (f"growth rate {result['growth_rate']:.6f}, frequency {result['frequency']:.6f} at Rm = {result['rm']:g}, "
-            f"N = {result['resolution']} ({result['method']}); error estimate {result['error_estimate']:.2g} "
+    return (f"growth rate {_num(result['growth_rate'], '.6f')}, frequency {_num(result['frequency'], '.6f')} at "
+            f"Rm = {result['rm']:g}, N = {result['resolution']} ({result['method']}); "
+            f"error estimate {_num(result['error_estimate'], '.2g')} "
             f"vs N = {result['check'].get('resolution')}, converged: {result['converged']}; "
             f"{result['seconds']:.1f} s")

@@ -176,10 +176,14 @@ _RUNNERS = {"eigen": (eigen_growth, EIGEN_DEFAULTS), "march": (march_growth, MAR
 
 
 def default_check_resolution(n: int) -> int:
-    """The coarser grid of a convergence pair: ``2N/3`` rounded to even (so ``N`` is its ``3/2``)."""
+    """The other grid of a convergence pair: ``2N/3`` rounded to even (so ``N`` is its ``3/2``),
+    or ``3N/2`` when ``2N/3`` would fall below the smallest grid."""
     m = int(round(2 * n / 3))
     m += m % 2
-    return max(MIN_RESOLUTION, m)
+    if m < MIN_RESOLUTION:
+        m = int(round(3 * n / 2))
+        m += m % 2
+    return m
 
 
 def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", check_resolution="auto",
