@@ -292,8 +292,7 @@ def flux_growth(
     B0, field_desc = _initial_field(field, S)
     marks = _checkpoints(system, T, checkpoints)
     window = (0.25 * float(marks[-1]), float(marks[-1])) if window is None else tuple(float(w) for w in window)
-    mask_all = window_mask(marks.astype(float), window)  # validate early
-    del mask_all
+    window_mask(marks.astype(float), window)  # a bad window is an error before any work
     M = X.shape[0]
     G = int(min(groups, M))
     gid = np.arange(M) % G
@@ -455,10 +454,12 @@ def _flux_stats(logf, sign, ok, gid, G, area) -> dict:
 
 
 def _rates(times, stats, window, notes) -> tuple[RateEstimate, RateEstimate]:
-    if len(times) < 3:
-        nan = RateEstimate(math.nan, math.nan, window, "fewer than 3 checkpoints finished")
+    try:
+        mask = window_mask(times, window)
+    except FlowkitError as exc:  # an interrupted run that stopped before the window
+        notes.append(f"no rates: {exc}")
+        nan = RateEstimate(math.nan, math.nan, window, "too few finished checkpoints in the window")
         return nan, nan
-    mask = window_mask(times, window)
     w = ols_weights(times[mask])
     win = (float(times[mask][0]), float(times[mask][-1]))
     njk = len(stats["loo_uns"])
@@ -477,6 +478,10 @@ def _rates(times, stats, window, notes) -> tuple[RateEstimate, RateEstimate]:
     if sel.sum() < mask.sum():
         notes.append(f"net-flux rate fitted over the {int(sel.sum())} of {int(mask.sum())} window checkpoints "
                      "where the net flux exceeds twice its Monte Carlo error")
+    flips = int(np.sum(np.diff(np.sign(stats["ratio"][sel])) != 0))
+    if flips:
+        notes.append(f"the net flux changes sign {flips} time(s) in the fit window: its rate describes the "
+                     "envelope of an oscillating flux only roughly (see `ratio` over time)")
     net = RateEstimate(float(stats["log_net"][sel] @ w2), err, (float(times[sel][0]), float(times[sel][-1])),
                        f"least-squares slope of ln|net flux| over resolved checkpoints; jackknife over {njk} groups")
     return net, uns

@@ -245,7 +245,10 @@ def block_rate(t: np.ndarray, y: np.ndarray, window: tuple, blocks: int = 4, wha
     standard error of the block slopes (it catches a slope that drifts or
     fluctuates, which the residuals of one straight line would not).
     """
-    mask = window_mask(t, window) & np.isfinite(y)
+    try:
+        mask = window_mask(t, window) & np.isfinite(y)
+    except FlowkitError as exc:  # e.g. an interrupted run that stopped before the window
+        return RateEstimate(math.nan, math.nan, window, f"{what}no estimate: {exc}")
     tw, yw = t[mask], y[mask]
     if len(tw) < 3:
         return RateEstimate(math.nan, math.nan, window, f"{what}: fewer than 3 finite points in the window")

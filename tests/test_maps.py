@@ -131,3 +131,11 @@ def test_map_bad_input_is_refused():
         stretch(cat, 10, -3)
     with pytest.raises(FlowkitError, match="outside the cell"):
         stretch(flowkit.flow("sfs-map"), seeds=[[1.5, 0.2, 0.2]], time=3)
+
+
+def test_map_kernel_results_do_not_depend_on_thread_count():
+    sfs = flowkit.flow("sfs-map", a=0.4)
+    one = stretch(sfs, 300, 15, threads=1, keep_series=True)
+    two = stretch(sfs, 300, 15, threads=2, keep_series=True)
+    np.testing.assert_array_equal(one.series, two.series)
+    np.testing.assert_array_equal(one.final_positions, two.final_positions)

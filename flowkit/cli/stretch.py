@@ -22,6 +22,8 @@ def add(sub):
     p.add_argument("--p", dest="orders", default="", metavar="P1,P2",
                    help="extra moment orders besides 1 and 2, e.g. --p 0.5,3")
     p.add_argument("--samples", type=int, default=100, help="checkpoints between 0 and --time (default 100)")
+    p.add_argument("--transient", type=float, default=0.0,
+                   help="advance the particles this long before attaching the field (e.g. onto an attractor)")
     p.add_argument("--line-points", type=int, default=50_000,
                    help="point budget of the material line (default 50000; 0 skips the line)")
     p.add_argument("--flux-samples", type=int, default=2000,
@@ -68,8 +70,9 @@ def run(args) -> dict:
         raise FlowkitError("--line-points and --flux-samples must be >= 0 (0 skips that part)")
     settings = None if mapping else IntegratorSettings(rtol=args.rtol, atol=1e-12)
     t0 = time.perf_counter()
+    transient = int(args.transient) if mapping and float(args.transient).is_integer() else args.transient
     res = stretch(system, args.particles, duration, p=_orders(args.orders), samples=args.samples,
-                  settings=settings, seed=args.seed)
+                  transient=transient, settings=settings, seed=args.seed)
     out = {
         "flow": system.name, "parameters": system.param_dict, "units": res.units, "time": duration,
         "lyapunov": _rate(res.lyapunov),
@@ -128,6 +131,9 @@ def human(result: dict) -> str:
     for p, r in result["moment_rates"].items():
         lines.append(f"  L({p}) moment rate           {fmt(r)}   [effective particles "
                      f"{result['effective_particles'][p]:.3g}]")
+    if result["mean_divergence"]:
+        lines.append(f"  (mean div u along the paths {result['mean_divergence']:.4g}: the field moments include "
+                     "the density factor rho/rho0)")
     lines.append(f"  material line stretching       {fmt(result['line_stretching'])}")
     if result.get("flux"):
         lines.append(f"  net flux rate                  {fmt(result['flux_rate'])}   (unsigned "
