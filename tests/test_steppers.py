@@ -122,3 +122,11 @@ def test_bad_settings_are_refused():
         IntegratorSettings(method="euler")
     with pytest.raises(FlowkitError, match="`step` must be a positive number when method='rk4'"):
         IntegratorSettings(method="rk4")
+
+
+def test_singular_velocity_is_reported_as_non_finite():
+    # u = 1/x is infinite at x = 0 (numpy error model: inf, not an exception); x = -sqrt(x0^2 + 2t) otherwise
+    f = flowkit.custom_flow(["1/x", "0", "0"], kind="system")
+    res = integrate_states(f, np.array([[0.0, 0, 0], [-1e-3, 0, 0]]), 0.0, 1.0)
+    assert res.outcome[0] == Outcome.NON_FINITE
+    assert res.outcome[1] == Outcome.FINISHED and abs(res.states[1, 0] + np.sqrt(1e-6 + 2.0)) < 1e-8

@@ -69,7 +69,7 @@ def _function(name: str, exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) 
     """Lines of one jitted function ``name(x, y, z, t, p)`` returning a tuple of ``exprs``."""
     lines, reduced = _body(exprs, params)
     ret = ", ".join(_print(e) for e in reduced)
-    return ["@njit(cache=CACHE)", f"def {name}(x, y, z, t, p):", *lines, f"    return ({ret},)", ""]
+    return ["@njit(cache=CACHE, error_model=\"numpy\")", f"def {name}(x, y, z, t, p):", *lines, f"    return ({ret},)", ""]
 
 
 def check_symbols(exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> None:

@@ -23,13 +23,13 @@ from flowkit.flows.base import DOMAINS, Flow, FlowFamily
 FD_RULE = "4th-order central differences, h = 1e-3 * max(1, |x_j|) (error about 1e-11 for O(1) fields)"
 
 _FD_CODE = """
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def velocity(x, y, z, t, p):
     r = _user_velocity(x, y, z, t, p)
     return (float(r[0]), float(r[1]), float(r[2]))
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def _fd_axis(x, y, z, t, p, axis):
     # fourth-order central difference of the velocity along one axis
     c = (x, y, z)[axis]
@@ -47,7 +47,7 @@ def _fd_axis(x, y, z, t, p, axis):
             (-a[2] + 8 * b[2] - 8 * c1[2] + d[2]) * s)
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, error_model="numpy")
 def gradient(x, y, z, t, p):
     gx = _fd_axis(x, y, z, t, p, 0)
     gy = _fd_axis(x, y, z, t, p, 1)

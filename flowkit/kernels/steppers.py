@@ -147,17 +147,19 @@ def dop853_advance(t, y, h, p, rtol, atol, hmax, W):
     n = y.shape[0]
     direction = 1.0 if h >= 0 else -1.0
     habs = min(abs(h), hmax)
+    nonfinite = False
     while True:
         hmin = 10.0 * (abs(t) * 2.220446049250313e-16 + 1e-300)
         if habs < hmin:
-            return 2, 0.0, 0.0
+            # a step that keeps producing non-finite values is reported as such
+            return (3 if nonfinite else 2), 0.0, 0.0
         hh = direction * habs
         err = dop853_try(t, y, hh, p, rtol, atol, W)
         if not math.isfinite(err):
-            if habs <= hmin * 2:
-                return 3, 0.0, 0.0
+            nonfinite = True
             habs *= 0.2  # a non-finite stage: retreat, and report only if it persists
             continue
+        nonfinite = False
         if err <= 1.0:
             fac = 10.0 if err == 0.0 else min(10.0, 0.9 * err ** (-1.0 / 8.0))
             for i in range(n):
@@ -224,6 +226,9 @@ def dop853_solve(t0, y, t1, p, rtol, atol, hmax, max_steps, W, bounded):
     if t1 == t0:
         return 0, t, 0
     rhs(t, y, p, W[0])
+    for i in range(y.shape[0]):
+        if not math.isfinite(W[0, i]):
+            return 3, t, 0
     h = dop853_initial_step(t, y, p, direction, rtol, atol, W)
     steps = 0
     while direction * (t1 - t) > 0:
