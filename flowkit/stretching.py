@@ -431,6 +431,7 @@ class _Chunk:
     sum_log: np.ndarray      # (K+1,) sum of ln|B| over valid particles
     sum_log2: np.ndarray     # (K+1,)
     rates: np.ndarray        # (nc,) per-particle slope of ln|d| over the window (NaN if failed)
+    field_slopes: np.ndarray  # (nc,) per-particle slope of ln|B| over the window
     final_log: np.ndarray    # (nc,) final ln|B|
     final_dir: np.ndarray    # (nc, 3) final unit direction of B
     final_pos: np.ndarray    # (nc, 3)
@@ -769,11 +770,21 @@ def _run_chunk(system, X, B, idx, marks, transient, settings, threads, weights, 
     good = logB[ok]
     rates = np.full(nc, np.nan)
     rates[ok] = line[ok] @ weights
+    fslopes = np.full(nc, np.nan)
+    fslopes[ok] = logB[ok] @ weights
     return _Chunk(
         index=idx, lse=lse, count=count, sum_log=good.sum(axis=0), sum_log2=(good * good).sum(axis=0),
-        rates=rates, final_log=logB[:, -1], final_dir=Y[:, 3:6].copy(), final_pos=Y[:, :3].copy(),
+        rates=rates, field_slopes=fslopes, final_log=logB[:, -1], final_dir=Y[:, 3:6].copy(), final_pos=Y[:, :3].copy(),
         outcome=outcome, div_sum=float(dens[ok, -1].sum()), series=logB if keep else None,
     )
+
+
+def _mean_rate(slopes: np.ndarray, win: tuple, what: str) -> RateEstimate:
+    """Mean of per-particle least-squares slopes with its standard error over particles."""
+    good = slopes[np.isfinite(slopes)]
+    err = float(np.std(good, ddof=1) / math.sqrt(len(good))) if len(good) > 1 else math.nan
+    return RateEstimate(float(good.mean()), err, win,
+                        f"mean over particles of the least-squares slope of {what}; standard error over particles")
 
 
 def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quantity, partial, seconds, keep,
@@ -784,6 +795,7 @@ def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quanti
     s1 = np.zeros(K1)
     s2 = np.zeros(K1)
     rates = np.full(N, np.nan)
+    fslopes = np.full(N, np.nan)
     final_log = np.full(N, np.nan)
     final_dir = np.full((N, 3), np.nan)
     final_pos = np.full((N, 3), np.nan)
@@ -796,6 +808,7 @@ def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quanti
         s1 += c.sum_log
         s2 += c.sum_log2
         rates[c.index] = c.rates
+        fslopes[c.index] = c.field_slopes
         final_log[c.index] = c.final_log
         final_dir[c.index] = c.final_dir
         final_pos[c.index] = c.final_pos
@@ -843,13 +856,8 @@ def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quanti
     mean = s1 / n
     var = np.maximum(s2 / n - mean**2, 0.0)
     mean_err = np.sqrt(var / max(n - 1, 1))
-    good = rates[np.isfinite(rates)]
-    lyap_err = float(np.std(good, ddof=1) / math.sqrt(len(good))) if len(good) > 1 else math.nan
-    lyap = RateEstimate(float(good.mean()), lyap_err, win,
-                        "mean over particles of the least-squares slope of ln|d|; standard error over particles")
-    field_val = float(mean[mask] @ wts)
-    field_rate = RateEstimate(field_val, math.nan if n < 2 else lyap_err, win,
-                              "least-squares slope of <ln|B|> (error bar of the line-element rate)")
+    lyap = _mean_rate(rates, win, "ln|d|")
+    field_rate = _mean_rate(fslopes, win, "ln|B|")
     return StretchResult(
         times=times, p=orders, log_moments=np.stack(moments, axis=1), log_moments_stderr=np.stack(moments_err, axis=1),
         mean_log=mean, mean_log_stderr=mean_err, lyapunov=lyap, moment_rates=mrates, field_rate=field_rate,
