@@ -16,7 +16,10 @@ whose cost is dominated by sin/cos, where numpy's SIMD transcendental functions
 are hard to beat.
 
 Standalone: ``python benchmarks/bench_ftle.py`` prints a summary and writes
-benchmarks/results/ftle.json. The machine may be shared: the load average is recorded.
+benchmarks/results/ftle.json. The machine may be shared: the load average is
+recorded, and CPU seconds (process time) are reported beside wall seconds, since on
+a loaded machine two threads cannot get two cores; the "projected" two-core figure
+is numpy CPU time / (flowkit two-thread CPU time / 2), labelled as a projection.
 """
 
 import math
@@ -109,25 +112,33 @@ def same_step_case(name, flow, plane, T, h, numpy_fn, numpy_tuned=None):
     """256x256 field, RK4 with the same step on both sides: implementation speed and 2-thread scaling."""
     rk4 = IntegratorSettings(method="rk4", step=h)
     ftle_field(flow, plane, (4, 4), h, settings=rk4, threads=1)  # compile
-    fields = {}
+    fields, cpu = {}, {}
 
     def timed(threads):
-        def go():
+        runs = []
+        for _ in range(2):
+            w0, c0 = time.perf_counter(), time.process_time()
             fields[threads] = ftle_field(flow, plane, (N, N), T, settings=rk4, threads=threads)
-        return best_of(go, 2)
+            runs.append((time.perf_counter() - w0, time.process_time() - c0))
+        wall, cpu[threads] = min(runs)
+        return wall
 
     t_rk4 = {th: timed(th) for th in (1, 2)}
     ours = fields[2]
     inside = np.isfinite(ours.values)
     pts = ours.points[inside]
-    t0 = time.perf_counter()
+    t0, c0 = time.perf_counter(), time.process_time()
     np_vals = numpy_fn(pts)
-    t_numpy = time.perf_counter() - t0
+    t_numpy, cpu_numpy = time.perf_counter() - t0, time.process_time() - c0
     res = {
         "case": name, "grid": [N, N], "points_integrated": int(inside.sum()), "time": T, "rk4_step": h,
+        "numpy_rk4_cpu_seconds": cpu_numpy, "cpu_time_ratio_vs_numpy_1_thread": cpu_numpy / cpu[1],
+        "projected_speedup_vs_numpy_on_2_free_cores": cpu_numpy / (cpu[2] / 2),
         "numpy_rk4_seconds": t_numpy, "flowkit_rk4_seconds": {"1": t_rk4[1], "2": t_rk4[2]},
         "speedup_vs_numpy": {"1": t_numpy / t_rk4[1], "2": t_numpy / t_rk4[2]},
         "two_thread_scaling": t_rk4[1] / t_rk4[2],
+        "cpu_seconds": {"1": cpu[1], "2": cpu[2]},
+        "two_thread_cpu_efficiency": cpu[1] / cpu[2],
         "max_abs_diff_flowkit_vs_numpy": float(np.max(np.abs(ours.values[inside] - np_vals))),
         "threads_identical": bool(np.array_equal(fields[1].values, fields[2].values, equal_nan=True)),
     }
@@ -135,6 +146,9 @@ def same_step_case(name, flow, plane, T, h, numpy_fn, numpy_tuned=None):
     print(f"  numpy RK4 {t_numpy:.3f} s | flowkit RK4 {t_rk4[1]:.3f} s (1 thread), {t_rk4[2]:.3f} s (2 threads) "
           f"-> {t_numpy / t_rk4[1]:.1f}x / {t_numpy / t_rk4[2]:.1f}x; two-thread scaling {t_rk4[1] / t_rk4[2]:.2f}x; "
           f"fields agree to {res['max_abs_diff_flowkit_vs_numpy']:.1e}")
+    print(f"  CPU seconds: numpy {cpu_numpy:.3f}, flowkit {cpu[1]:.3f} (1 thread) / {cpu[2]:.3f} (2 threads) -> "
+          f"CPU-time ratio {cpu_numpy / cpu[1]:.1f}x; parallel work efficiency {cpu[1] / cpu[2]:.2f}; projected "
+          f"{cpu_numpy / (cpu[2] / 2):.1f}x on two free cores")
     if numpy_tuned is not None:
         t0 = time.perf_counter()
         tuned = numpy_tuned(pts)

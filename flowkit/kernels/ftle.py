@@ -20,8 +20,13 @@ import numpy as np
 
 from flowkit.kernels._stub import CACHE, gradient, njit, prange, velocity  # flowkit:stub
 
+#: Let LLVM fuse multiply-adds in these kernels (about 25 % faster here). Only
+#: contraction is allowed (no reassociation), so results stay deterministic and
+#: independent of the thread count; they differ from unfused arithmetic at round-off.
+FTLE_FASTMATH = {"contract"}
 
-@njit(cache=CACHE)
+
+@njit(cache=CACHE, fastmath=FTLE_FASTMATH)
 def _rate3(x, y, z, j, t, p):
     """Derivative of (position, J) for the 3-D variational state; ``j`` row-major 9-tuple."""
     u, v, w = velocity(x, y, z, t, p)
@@ -37,13 +42,13 @@ def _rate3(x, y, z, j, t, p):
     return u, v, w, d
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath=FTLE_FASTMATH)
 def _axpy9(a, h, b):
     return (a[0] + h * b[0], a[1] + h * b[1], a[2] + h * b[2], a[3] + h * b[3], a[4] + h * b[4],
             a[5] + h * b[5], a[6] + h * b[6], a[7] + h * b[7], a[8] + h * b[8])
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath=FTLE_FASTMATH)
 def _rk4_sum9(a, h, k1, k2, k3, k4):
     return (a[0] + h * (k1[0] + 2 * (k2[0] + k3[0]) + k4[0]), a[1] + h * (k1[1] + 2 * (k2[1] + k3[1]) + k4[1]),
             a[2] + h * (k1[2] + 2 * (k2[2] + k3[2]) + k4[2]), a[3] + h * (k1[3] + 2 * (k2[3] + k3[3]) + k4[3]),
@@ -52,7 +57,7 @@ def _rk4_sum9(a, h, k1, k2, k3, k4):
             a[8] + h * (k1[8] + 2 * (k2[8] + k3[8]) + k4[8]))
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath=FTLE_FASTMATH)
 def _largest_singular_log3(j):
     """log of the largest singular value of the row-major 3x3 ``j``.
 
@@ -91,7 +96,7 @@ def _largest_singular_log3(j):
     return 0.5 * math.log(lam) + math.log(m)
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath=FTLE_FASTMATH)
 def _largest_singular_log2(a, b, c, d):
     """log of the largest singular value of [[a, b], [c, d]] (closed form, scaled against overflow)."""
     m = max(max(abs(a), abs(b)), max(abs(c), abs(d)))
@@ -104,7 +109,7 @@ def _largest_singular_log2(a, b, c, d):
     return 0.5 * math.log(0.5 * (s1 + disc)) + math.log(m)
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath=FTLE_FASTMATH)
 def _ftle_rk4_point3(x, y, z, t0, h, nsteps, p, bounded):
     j = (1.0, 0.0, 0.0, 0.0, 1.0, 0.0, 0.0, 0.0, 1.0)
     for k in range(nsteps):
@@ -127,7 +132,7 @@ def _ftle_rk4_point3(x, y, z, t0, h, nsteps, p, bounded):
     return 0, nsteps, _largest_singular_log3(j)
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath=FTLE_FASTMATH)
 def _rate2(x, y, z, a, b, c, d, t, p):
     """Derivative of the planar state: in-plane velocity and (grad u) J for J = [[a, b], [c, d]]."""
     u, v, _ = velocity(x, y, z, t, p)
@@ -135,7 +140,7 @@ def _rate2(x, y, z, a, b, c, d, t, p):
     return u, v, g[0] * a + g[1] * c, g[0] * b + g[1] * d, g[3] * a + g[4] * c, g[3] * b + g[4] * d
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath=FTLE_FASTMATH)
 def _ftle_rk4_point2(x, y, z, t0, h, nsteps, p, bounded):
     a, b, c, d = 1.0, 0.0, 0.0, 1.0
     for k in range(nsteps):
@@ -162,7 +167,7 @@ def _ftle_rk4_point2(x, y, z, t0, h, nsteps, p, bounded):
     return 0, nsteps, _largest_singular_log2(a, b, c, d)
 
 
-@njit(cache=CACHE, parallel=True)
+@njit(cache=CACHE, parallel=True, fastmath=FTLE_FASTMATH)
 def ftle_rk4_grid(points, t0, h, nsteps, p, planar, bounded, out, outcome):
     """log(sigma_max(J)) after ``nsteps`` RK4 steps of size ``h`` (negative: backward) from each point.
 
