@@ -37,8 +37,8 @@ from flowkit.integrate.batch import IntegratorSettings, check_seeds
 from flowkit.integrate.outcomes import Outcome, outcome_counts
 from flowkit.lyapunov import check_time, dop853_settings, method_record, require_flow, run_tangent, tangent_states
 
-__all__ = ["orbit_ftle", "orbit_indicator", "default_threshold", "ChaoticFraction", "chaotic_fraction",
-           "OrbitExponents"]
+__all__ = ["orbit_ftle", "orbit_indicator", "attach_indicator", "default_threshold", "ChaoticFraction",
+           "chaotic_fraction", "OrbitExponents"]
 
 #: Initial tangent vector: a fixed generic direction (not along an axis, where
 #: symmetric flows can hide stretching); in-plane for planar flows.
@@ -146,6 +146,29 @@ def orbit_indicator(flow: Flow, seeds, time: float, settings: IntegratorSettings
     says how many). Compare with :func:`default_threshold` (``time``).
     """
     return orbit_ftle(flow, seeds, time, settings).values
+
+
+def attach_indicator(section, flow: Flow, time: float, settings: IntegratorSettings | None = None, *,
+                     name: str = "ftle", threshold: float | None = None):
+    """Compute the finite-time largest exponent of every orbit of a Poincaré section and attach it.
+
+    Orbits start at ``section.seeds`` and at the section's start time. Two per-orbit
+    arrays are attached: ``name`` (the exponent, NaN where the orbit failed) and
+    ``name + "_chaotic"`` (1 above the threshold, 0 below, -1 failed), so that
+    ``plot_section(ax, section, color_by=name)`` colours regular vs chaotic orbits.
+    The threshold and its rule are recorded in ``section.provenance["indicator"]``.
+    Returns the section.
+    """
+    t0 = float(section.provenance.get("t0", 0.0))
+    res = orbit_ftle(flow, section.seeds, time, settings, t0=t0, threshold=threshold)
+    flag = np.where(np.isfinite(res.values), res.chaotic.astype(np.int8), np.int8(-1)).astype(np.int8)
+    section.attach(name, res.values)
+    section.attach(f"{name}_chaotic", flag)
+    method = res.provenance["method"]
+    section.provenance["indicator"] = {k: method[k] for k in ("indicator", "time", "t0", "threshold",
+                                                               "threshold_rule")}
+    section.provenance["indicator"]["name"] = name
+    return section
 
 
 @dataclass

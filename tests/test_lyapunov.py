@@ -173,6 +173,19 @@ def test_integrable_stokes_flow_has_no_chaotic_fraction_and_rotation_makes_it_ch
     assert stirred.fraction > 0.9
 
 
+def test_section_orbits_get_the_indicator_attached():
+    # integrable stf (rotation 0) vs stirred (rotation 0.3) on the same seeds, through a real section
+    from flowkit.chaos import attach_indicator
+    from flowkit.sections import poincare_section
+
+    seeds = [[0.1, 0.2, 0.3], [0.4, -0.1, 0.2]]
+    for rotation, expect in ((0.0, 0), (0.3, 1)):
+        f = flowkit.flow("stf", rotation=rotation)
+        sec = attach_indicator(poincare_section(f, seeds, crossings=5), f, 200.0)
+        assert sec.orbit_values["ftle"].shape == (2,) and np.all(sec.orbit_values["ftle_chaotic"] == expect)
+        assert sec.provenance["indicator"]["threshold"] == pytest.approx(default_threshold(200.0))
+
+
 def test_chaotic_fraction_needs_bounds_on_unbounded_domains(quad):
     with pytest.raises(FlowkitError, match="pass `bounds`"):
         chaotic_fraction(quad, 10, 10.0)
