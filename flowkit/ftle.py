@@ -88,8 +88,9 @@ class GridPlane:
             raise FlowkitError("plane directions `u` and `v` are parallel; give two independent in-plane vectors")
         vv /= np.linalg.norm(vv)
         sp = _check_span(span)
-        return cls(tuple(o), tuple(uu), tuple(vv), sp,
-                   f"origin {tuple(np.round(o, 6))}, u {tuple(np.round(uu, 6))}, v {tuple(np.round(vv, 6))}")
+        fmt = lambda a: "(" + ", ".join(f"{float(c):.4g}" for c in a) + ")"  # noqa: E731
+        return cls(tuple(float(c) for c in o), tuple(float(c) for c in uu), tuple(float(c) for c in vv), sp,
+                   f"plane through {fmt(o)}, u {fmt(uu)}, v {fmt(vv)}")
 
     @classmethod
     def coordinate(cls, axis: str, value: float, span) -> "GridPlane":

@@ -71,7 +71,7 @@ def check_time(time: float, name: str = "time") -> float:
     if not (math.isfinite(val) and val > 0):
         raise FlowkitError(
             f"`{name}` must be a positive, finite duration; got {time!r} "
-            "(to go backward in time use direction='backward', not a negative time)"
+            "(for backward time use direction='backward', or --backward on the command line)"
         )
     return val
 

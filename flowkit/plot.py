@@ -47,7 +47,8 @@ def plot_ftle(ax, field, *, cmap: str = "magma", colorbar: bool = True, vmin=Non
                     rasterized=True, **style)
     xl, yl = _plane_axis_labels(field.plane)
     label = field.plane.get("label", "")
-    ax.set(xlabel=xl, ylabel=yl, title=f"{field.direction} FTLE, T = {field.time:g}" + (f" ({label})" if label else ""))
+    short = label if len(label) <= 24 else ""  # a coordinate plane ("z = 0"); general planes are in the axis labels
+    ax.set(xlabel=xl, ylabel=yl, title=f"{field.direction} FTLE, T = {field.time:g}" + (f" ({short})" if short else ""))
     ax.set_aspect("equal")
     cbar = None
     if colorbar:
