@@ -24,7 +24,7 @@ from flowkit.seeding import across_domain
 plane = Plane((0, 1, 0), 0.0, "+")
 base = flowkit.flow("stf")
 seeds = across_domain(base, plane, size(14, 3))
-rotations = [0.0, 0.4, 1.0]
+rotations = [0.02, 0.1, 0.3]
 
 # %%
 # One section per rotation rate

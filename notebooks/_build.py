@@ -68,7 +68,7 @@ The first use compiles the kernels (the status line says so); they are cached on
     code('''
 from flowkit.lab import FTLEExplorer, GrowthExplorer, SectionExplorer
 
-explorer = SectionExplorer("stf", params={"rotation": 0.3}, n_seeds=size(10, 6),
+explorer = SectionExplorer("stf", params={"rotation": 0.1}, n_seeds=size(10, 6),
                            crossings=size(1000, 150))
 explorer'''),
     md("""
@@ -231,7 +231,7 @@ from flowkit.plot import plot_section
 from flowkit.sections import Plane, poincare_section, tolerance_check
 from flowkit.seeding import across_domain
 
-rotations = np.linspace(0.0, 1.2, size(6, 3))
+rotations = np.linspace(0.02, 0.5, size(6, 3))
 plane = Plane((0, 1, 0), 0.0, "+")
 base = flowkit.flow("stf")
 seeds = across_domain(base, plane, size(12, 4))
