@@ -101,6 +101,7 @@ class Explorer:
         self._quiet = False
         self._png = None
         self.message = ""  #: plain text of the status line
+        self._layout_key = None
 
         self.flow_picker = w.Dropdown(options=list(self._flows), value=key, description="flow")
         self.flow_picker.observe(self._on_flow_picked, names="value")
@@ -202,6 +203,7 @@ class Explorer:
             result = self._compute(flow, preview)
             tac = time.perf_counter()
             self._draw(result, preview)
+            self._fit_layout()
             self._draw_idle()
             toc = time.perf_counter()
         except FlowkitError as exc:
@@ -254,6 +256,20 @@ class Explorer:
         return repr(result)
 
     # -- figure ----------------------------------------------------------------------
+    def _fit_layout(self) -> None:
+        """Run the constrained layout only when labels or visible axes changed, then freeze it.
+
+        The layout engine costs about as much as drawing 10,000 points; a slider
+        move changes data, not the frame, so the frame is laid out once.
+        """
+        key = tuple((ax.get_visible(), ax.get_xlabel(), ax.get_ylabel()) for ax in self.fig.axes)
+        if key == self._layout_key:
+            return
+        self.fig.set_layout_engine("constrained")
+        self.fig.draw_without_rendering()
+        self.fig.set_layout_engine("none")
+        self._layout_key = key
+
     def _draw_idle(self) -> None:
         self.fig.canvas.draw_idle()
         if self._png is not None:  # not an interactive canvas: refresh the static picture

@@ -257,7 +257,7 @@ class SectionExplorer(Explorer):
         self.ax = ax
         self.scatter = ax.scatter(np.zeros(0), np.zeros(0), c=np.zeros(0), s=1.0, linewidths=0,
                                   cmap=mpl.colormaps["tab20"], vmin=-0.5, vmax=_ORBIT_COLOURS - 0.5,
-                                  rasterized=True, plotnonfinite=True)
+                                  plotnonfinite=True)  # on screen; exports rasterize (plot_section)
         (self.boundary,) = ax.plot([], [], color="0.3", lw=0.8)
         self.colorbar = self.fig.colorbar(self.scatter, ax=ax, shrink=0.8, label="finite-time largest exponent")
         self.threshold_line = self.colorbar.ax.axhline(0.0, color="k", lw=1.0)
@@ -297,8 +297,10 @@ class SectionExplorer(Explorer):
         self.scatter.set_offsets(sec.display_coords())
         self.scatter.set_sizes([marker_size(len(values))])
         self.scatter.set_array(values)
-        self.scatter.set_cmap(mpl.colormaps[cmap].with_extremes(bad="0.7"))
-        self.scatter.set_clim(*clim)
+        if cmap != self.scatter.get_cmap().name.removesuffix("_extremes") or clim != self.scatter.get_clim():
+            # only on a real change: each one also redraws the colour bar
+            self.scatter.set_cmap(mpl.colormaps[cmap].with_extremes(bad="0.7"))
+            self.scatter.set_clim(*clim)
         chaos = cmap == "viridis"
         self.colorbar.ax.set_visible(chaos)
         if chaos:
