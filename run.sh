@@ -28,12 +28,17 @@ setup() {
 task=${1:-lab}
 [ $# -gt 0 ] && shift
 setup
-export PATH="$PWD/$VENV/bin:$PATH"
+case "$VENV" in
+  /*) export PATH="$VENV/bin:$PATH" ;;
+  *) export PATH="$PWD/$VENV/bin:$PATH" ;;
+esac
 case "$task" in
   lab)
     target=notebooks/explore.ipynb
     [ -f "$target" ] || target=notebooks
-    exec jupyter lab "$target" "$@"
+    as_root=()
+    [ "$(id -u)" = 0 ] && as_root=(--allow-root)  # containers and cloud machines often run as root
+    exec jupyter lab ${as_root[@]+"${as_root[@]}"} "$target" "$@"
     ;;
   headless)
     mkdir -p out
