@@ -213,13 +213,14 @@ def test_debouncer_on_a_loop_coalesces_bursts():
     calls = []
 
     async def burst():
-        thr = Debouncer(0.05, lambda x: calls.append(("preview", x)), "throttle")
-        deb = Debouncer(0.15, lambda x: calls.append(("full", x)), "debounce")
+        # intervals far apart from the 10 ms steps, so a loaded machine does not change the outcome
+        thr = Debouncer(0.2, lambda x: calls.append(("preview", x)), "throttle")
+        deb = Debouncer(0.6, lambda x: calls.append(("full", x)), "debounce")
         for x in range(10):  # a slider dragged: a value every 10 ms
             thr.trigger(x)
             deb.trigger(x)
             await asyncio.sleep(0.01)
-        await asyncio.sleep(0.4)
+        await asyncio.sleep(1.2)
 
     asyncio.run(burst())
     previews = [x for kind, x in calls if kind == "preview"]
