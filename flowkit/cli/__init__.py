@@ -22,19 +22,10 @@ COMMANDS = ["flows", "describe", "check", "section", "lyapunov", "ftle", "stretc
 
 
 def _jsonable(obj):
-    import numpy as np
+    """JSON-ready copy of a command's result (NaN and infinities become null)."""
+    from flowkit.jsonable import json_ready
 
-    if isinstance(obj, dict):
-        return {str(k): _jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_jsonable(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return _jsonable(obj.tolist())
-    if isinstance(obj, np.generic):
-        return obj.item()
-    if isinstance(obj, float) and obj != obj:
-        return None
-    return obj
+    return json_ready(obj)
 
 
 def _plain(result: dict, indent: str = "") -> str:

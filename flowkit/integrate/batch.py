@@ -106,6 +106,16 @@ def check_seeds(flow: Flow, seeds, name: str = "seeds") -> np.ndarray:
     return np.ascontiguousarray(arr)
 
 
+def prepare_states(states, t0: float, t1: float) -> np.ndarray:
+    """A fresh C-contiguous float copy of ``states`` (N, 3 + 3k), with the times checked."""
+    Y = np.array(states, dtype=np.float64, order="C", copy=True)
+    if Y.ndim != 2 or Y.shape[1] < 3 or (Y.shape[1] - 3) % 3:
+        raise FlowkitError(f"`states` must have shape (N, 3 + 3k); got {Y.shape}")
+    if not (math.isfinite(t0) and math.isfinite(t1)):
+        raise FlowkitError("`t0` and `t1` must be finite")
+    return Y
+
+
 def integrate_states(
     flow: Flow,
     states,
@@ -120,11 +130,7 @@ def integrate_states(
     gradient. Runs in parallel over rows; per-row outcomes report failures.
     """
     settings = settings or IntegratorSettings()
-    Y = np.array(states, dtype=np.float64, order="C", copy=True)
-    if Y.ndim != 2 or Y.shape[1] < 3 or (Y.shape[1] - 3) % 3:
-        raise FlowkitError(f"`states` must have shape (N, 3 + 3k); got {Y.shape}")
-    if not (math.isfinite(t0) and math.isfinite(t1)):
-        raise FlowkitError("`t0` and `t1` must be finite")
+    Y = prepare_states(states, t0, t1)
     N = Y.shape[0]
     outcome = np.zeros(N, dtype=np.int8)
     t_end = np.zeros(N)

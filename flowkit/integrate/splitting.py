@@ -16,7 +16,7 @@ import numpy as np
 
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
-from flowkit.integrate.batch import BatchResult, thread_limit
+from flowkit.integrate.batch import BatchResult, prepare_states, thread_limit
 
 SCHEMES = {
     2: "Strang composition a(h/2) b(h) a(h/2) of implicit-midpoint sub-steps",
@@ -79,11 +79,7 @@ def integrate_split(
     volume the scheme actually preserves.
     """
     check_splittable(flow)
-    Y = np.array(states, dtype=np.float64, order="C", copy=True)
-    if Y.ndim != 2 or Y.shape[1] < 3 or (Y.shape[1] - 3) % 3:
-        raise FlowkitError(f"`states` must have shape (N, 3 + 3k); got {Y.shape}")
-    if not (math.isfinite(t0) and math.isfinite(t1)):
-        raise FlowkitError("`t0` and `t1` must be finite")
+    Y = prepare_states(states, t0, t1)
     N = Y.shape[0]
     nsteps = max(1, int(math.ceil(abs(t1 - t0) / settings.step - 1e-9)))
     outcome = np.zeros(N, dtype=np.int8)

@@ -210,15 +210,7 @@ class Section:
 
 
 def _jsonable(obj):
-    """Provenance with numpy scalars/arrays turned into plain JSON values (inf/nan as strings)."""
-    if isinstance(obj, dict):
-        return {str(k): _jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_jsonable(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return _jsonable(obj.tolist())
-    if isinstance(obj, np.generic):
-        return _jsonable(obj.item())
-    if isinstance(obj, float) and not math.isfinite(obj):
-        return str(obj)
-    return obj
+    """Provenance as plain JSON values (inf/nan as strings, so they round-trip)."""
+    from flowkit.jsonable import json_ready
+
+    return json_ready(obj, nonfinite="string")
