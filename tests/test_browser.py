@@ -6,7 +6,8 @@ Chromium (``/usr/bin/chromium``) is driven by Playwright for Python (never
 ``playwright install``: the browser is the system one). The test opens
 ``notebooks/explore.ipynb`` (a copy), runs all cells, drags the ``rotation``
 slider of the section explorer and checks that the pixels of the ipympl canvas
-change and that the status line reports the full section for the new value.
+change and that the status line reports the full section for the new value;
+then it clicks inside the section and checks that one orbit was added.
 
 Without Chromium the test is skipped locally with a loud reason; in CI
 (``CI=true``) a missing Chromium is a failure (``.ci/run`` installs it).
@@ -15,6 +16,7 @@ Without Chromium the test is skipped locally with a loud reason; in CI
 import contextlib
 import json
 import os
+import re
 import shutil
 import signal
 import socket
@@ -198,6 +200,18 @@ def test_slider_drag_redraws_section_in_jupyterlab(tmp_path):
             assert shot_after != shot_before
             (tmp_path / "before.png").write_bytes(shot_before)
             (tmp_path / "after.png").write_bytes(shot_after)
+
+            # a click inside the disc seeds one more orbit (ipympl forwards the press to the kernel)
+            status = page.locator(".widget-html").first.inner_text()
+            n_orbits = int(re.search(r"(\d+) orbits", status).group(1))
+            canvas = page.locator(".jupyter-matplotlib-canvas-div").first
+            box = canvas.bounding_box()
+            page.mouse.click(box["x"] + 0.3 * box["width"], box["y"] + 0.5 * box["height"])
+            page.wait_for_function(
+                "v => { const s = document.querySelector('.widget-html'); return s && s.textContent.includes(v) }",
+                arg=f"{n_orbits + 1} orbits", timeout=REDRAW_TIMEOUT * 1000)
+            assert "orbit added" in page.locator(".widget-html").first.inner_text()
+            assert _settled_pixels(page, REDRAW_TIMEOUT) != after
         except Exception:
             page.screenshot(path=str(tmp_path / "failure.png"))
             print(f"browser test failed: screenshot {tmp_path / 'failure.png'}, server log {tmp_path / 'jupyterlab.log'}")
