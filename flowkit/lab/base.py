@@ -206,9 +206,12 @@ class Explorer:
             self._fit_layout()
             self._draw_idle()
             toc = time.perf_counter()
-        except FlowkitError as exc:
+        except FlowkitError as exc:  # bad input: the message says how to fix it
             self.say(f"{exc}", error=True)
             return
+        except Exception as exc:  # a bug: say so where the user looks, and keep the traceback
+            self.say(f"{type(exc).__name__}: {exc} (traceback in the log)", error=True)
+            raise
         self.timings["preview" if preview else "full"] = tac - tic
         self.timings["draw"] = toc - tac
         self.showing = "preview" if preview else "full"

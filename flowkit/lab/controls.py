@@ -36,6 +36,11 @@ PARAM_RANGES: dict[str, dict[str, tuple[float, float, float]]] = {
 }
 
 
+#: Section-plane normal of presets whose orbits never cross the usual default (y in the ball,
+#: z in the box): Hill's vortex without swirl keeps each orbit in its meridional plane.
+DEFAULT_NORMALS = {"hill": "z"}
+
+
 def quick() -> bool:
     """True when ``FLOWKIT_QUICK=1``: notebooks and gallery scripts shrink their sizes (CI)."""
     return os.environ.get("FLOWKIT_QUICK", "") not in ("", "0")
@@ -153,7 +158,11 @@ class PlaneControls:
         self.offset.observe(handler, names="value")
 
     def reset(self, flow, normal: str | None, offset: float) -> None:
-        """Fit the offset range to ``flow``'s domain, then set ``normal`` (default y in the ball, z in the box)."""
+        """Fit the offset range to ``flow``'s domain, then set ``normal``.
+
+        Default normal: :data:`DEFAULT_NORMALS` for the presets listed there, else
+        y in the unit ball and z in the periodic box.
+        """
         if flow.domain == "ball":
             lo, hi = -0.9, 0.9
         elif flow.domain == "periodic":
@@ -165,4 +174,4 @@ class PlaneControls:
             s.min, s.max = min(lo, -abs(offset)) - 1, max(hi, abs(offset)) + 1  # never clamp on the way
             s.value = min(max(float(offset), lo), hi)
             s.min, s.max, s.step = lo, hi, (hi - lo) / 200
-        self.normal.value = normal or ("y" if flow.domain == "ball" else "z")
+        self.normal.value = normal or DEFAULT_NORMALS.get(flow.name) or ("y" if flow.domain == "ball" else "z")
