@@ -98,7 +98,7 @@ edges of the islands. The preview grid is coarse; the full grid follows when a
 slider rests.
 """),
     code('''
-ftle_view = FTLEExplorer("stf", params={"rotation": 0.3}, time=size(5.0, 2.0),
+ftle_view = FTLEExplorer("stf", params={"rotation": 0.1}, time=size(5.0, 2.0),
                          resolution=size(96, 16), preview_resolution=size(24, 8))
 ftle_view'''),
     md("""
@@ -109,7 +109,7 @@ the slope of ⟨ln|B|⟩ is the largest Lyapunov exponent, the slopes of ln⟨|B
 the generalized exponents L(p). Shaded: the fit window.
 """),
     code('''
-growth_view = GrowthExplorer("stf", params={"rotation": 0.3}, time=size(20.0, 4.0),
+growth_view = GrowthExplorer("stf", params={"rotation": 0.1}, time=size(20.0, 4.0),
                              particles=size(1000, 40), preview_particles=size(64, 8), samples=size(60, 12))
 growth_view'''),
     md("""

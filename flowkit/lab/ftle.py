@@ -68,7 +68,7 @@ class FTLEExplorer(Explorer):
         self.time_slider = w.FloatLogSlider(value=time, base=10, min=-1, max=2.5, step=0.02, description="T",
                                             continuous_update=True, layout=w.Layout(width="95%"))
         self.direction_picker = w.ToggleButtons(options=["forward", "backward"], value=direction,
-                                                description="time", style={"button_width": "80px"})
+                                                description="time", style={"button_width": "90px"})
         self.resolution_box = w.BoundedIntText(value=int(resolution), min=2, max=2048, step=16,
                                                description="grid")
         super().__init__(flow, params=params, presets=presets, **kw)
