@@ -310,8 +310,9 @@ def _run_chunk(flow, pts, t0, t1, time, settings, threads, planar):
         logs = np.empty(pts.shape[0])
         codes = np.zeros(pts.shape[0], dtype=np.int8)
         with thread_limit(threads), numba.parallel_chunksize(16):
-            flow.kernels.ftle_rk4_grid(np.ascontiguousarray(pts), t0, (t1 - t0) / nsteps, nsteps, flow.params,
-                                       planar, flow.domain == "ball", logs, codes)
+            kernel = flow.kernels.ftle_rk4_grid_planar if planar else flow.kernels.ftle_rk4_grid
+            kernel(np.ascontiguousarray(pts), t0, (t1 - t0) / nsteps, nsteps, flow.params, flow.domain == "ball",
+                   logs, codes)
         return logs / time, codes
     k = 2 if planar else 3
     Y = np.zeros((pts.shape[0], 3 + 3 * k))

@@ -2,7 +2,7 @@
 
 :func:`lyapunov_spectrum` follows one orbit with its tangent vectors, keeps them
 orthonormal by QR (Gram–Schmidt) after every integrator step and averages the
-logarithms of the diagonal of R (Meccanica 15, 1980, 9-20). It discards a
+logarithms of the diagonal of R (Meccanica 15, 1980, 9-20 and 21-30). It discards a
 transient, keeps the running estimate, gives standard errors from block
 averages, and says whether the estimate has converged (and why not). Its sanity
 figure is the mean divergence along the same stretch of orbit, computed
@@ -336,9 +336,12 @@ def lyapunov_spectrum(
 
     Notes
     -----
-    Method of Meccanica 15 (1980) 9-20: tangent vectors obey the variational
-    equation with the flow's exact gradient; they are re-orthonormalized by
-    Gram–Schmidt after every DOP853 step (see :mod:`flowkit.kernels.lyapunov`).
+    Method of Meccanica 15 (1980) 9-20 (theory) and 21-30 (numerics; page
+    numbers cited from memory): tangent vectors obey the variational equation
+    with the flow's exact gradient; they are re-orthonormalized by Gram–Schmidt
+    after every DOP853 step (see :mod:`flowkit.kernels.lyapunov`). ``seconds``
+    is the wall time of the kernel calls (numba compiles on the first call for
+    a flow family).
     A failed orbit (left the domain, non-finite values, step budget) is not an
     exception: the result keeps what was finished and ``converged`` is False
     with the outcome as the reason.
@@ -392,7 +395,10 @@ def lyapunov_spectrum(
         mean_div = math.nan
         reasons.append("fewer than two blocks were completed: no estimate")
     running = np.cumsum(logs[:done], axis=0) / (tau * np.arange(1, done + 1))[:, None]
-    tol = float(tolerance) if tolerance is not None else max(1e-3, 0.01 * abs(float(exps[0])) if math.isfinite(exps[0]) else 1e-3)
+    if tolerance is not None:
+        tol = float(tolerance)
+    else:
+        tol = max(1e-3, 0.01 * abs(float(exps[0]))) if math.isfinite(exps[0]) else 1e-3
     if nb >= 2:
         reasons += _convergence_problems(block_means, exps, stderr, mean_div, tol, nb, blocks)
 

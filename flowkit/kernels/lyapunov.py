@@ -6,7 +6,7 @@ equation with the flow's exact gradient. After every accepted DOP853 step the
 tangent columns are re-orthonormalized by modified Gram–Schmidt (a QR
 factorization Q R of the step's tangent map applied to the previous Q) and the
 logarithms of the diagonal of R are accumulated: the method of Meccanica 15
-(1980) 9-20, with the renormalization done every step so the columns stay of
+(1980) 9-20 and 21-30, with the renormalization done every step so the columns stay of
 order one (DOP853's error control then treats all of them alike and no
 renormalization interval has to be tuned). The accumulated sums are reported per
 *bookkeeping interval* so that the caller can discard a transient, keep a running
