@@ -16,7 +16,6 @@ view plane); its orbit is integrated with the full budget and appended.
 from __future__ import annotations
 
 import math
-import time
 
 import numpy as np
 
@@ -238,16 +237,12 @@ class SectionExplorer(Explorer):
     def _attach_indicator(self, flow: Flow, sec: Section) -> None:
         import warnings
 
-        from flowkit.chaos import default_threshold, orbit_indicator
+        from flowkit.chaos import attach_indicator
         from flowkit.errors import FlowkitNotice
 
-        tic = time.perf_counter()
-        with warnings.catch_warnings():  # orbits that leave the domain get NaN; the colour bar shows them grey
+        with warnings.catch_warnings():  # orbits that leave the domain get NaN; they are drawn grey
             warnings.simplefilter("ignore", FlowkitNotice)
-            sec.attach(INDICATOR, orbit_indicator(flow, sec.seeds, self.indicator_time))
-        sec.provenance["indicator"] = {"name": "finite-time largest Lyapunov exponent", "time": self.indicator_time,
-                                       "threshold": default_threshold(self.indicator_time),
-                                       "seconds": time.perf_counter() - tic}
+            attach_indicator(sec, flow, self.indicator_time, name=INDICATOR)
 
     # -- drawing --------------------------------------------------------------------------
     def _build_axes(self) -> None:
