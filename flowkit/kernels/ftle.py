@@ -113,6 +113,7 @@ def _lane_stage3(W, t, p, wacc, anext):
         d6 = g[6] * j0 + g[7] * j3 + g[8] * j6
         d7 = g[6] * j1 + g[7] * j4 + g[8] * j7
         d8 = g[6] * j2 + g[7] * j5 + g[8] * j8
+        # written out row by row on purpose: a loop over a tuple index stops LLVM vectorizing
         W[24 * L + i] += wacc * u
         W[25 * L + i] += wacc * v
         W[26 * L + i] += wacc * w
