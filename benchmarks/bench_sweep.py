@@ -13,19 +13,19 @@ sys.path.insert(0, str(__import__("pathlib").Path(__file__).parent))
 from _common import save  # noqa: E402
 
 from flowkit.sweep import SweepSpec  # noqa: E402
-from flowkit.sweep.runner import _warm_worker, chunk, compute_point, compute_task  # noqa: E402
+from flowkit.sweep.runner import WORKER_ENV, _warm_worker, chunk, compute_point, compute_task  # noqa: E402
 
 
 def main():
     import numba
 
     numba.set_num_threads(1)
-    spec = SweepSpec(flow={"preset": "stf"}, axes={"rotation": [i / 31 for i in range(32)]},
+    spec = SweepSpec(flow={"preset": "stf"}, axes={"rotation": [i / 95 for i in range(96)]},
                      measures=["mean_ftle"], options={"mean_ftle": {"particles": 128, "time": 10.0}})
     sd = spec.as_dict()
     compute_point(sd, 0)  # warm (compiles)
     probe = compute_point(sd, 1)  # the runner sizes tasks from one warm point, like this
-    tasks = chunk(list(range(32)), probe["seconds"])
+    tasks = chunk(list(range(96)), probe["seconds"])
     t0 = time.perf_counter()
     for t in tasks:
         compute_task(sd, t)
@@ -36,14 +36,14 @@ def main():
     walls = {}
     for workers in (1, 2):
         with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0",
-                          silence_logs=40) as cluster, Client(cluster) as client:
+                          silence_logs=40, env=WORKER_ENV) as cluster, Client(cluster) as client:
             client.run(_warm_worker, sd)
-            client.gather([client.submit(compute_task, sd, [0], pure=False)])  # compile measure kernels
+            client.run(compute_task, sd, [0])  # every worker loads its measure kernels
             t0 = time.perf_counter()
             client.gather([client.submit(compute_task, sd, t, pure=False) for t in tasks])
             walls[workers] = time.perf_counter() - t0
     out = {
-        "points": 32,
+        "points": 96,
         "tasks": len(tasks),
         "points_per_task": len(tasks[0]),
         "in_process_seconds": inproc,
