@@ -61,6 +61,20 @@ def rk4_step(t, y, h, p, W):
 
 
 @njit(cache=CACHE)
+def dop853_stages(t, y, h, p, W, first, last):
+    """Stages ``first..last-1`` of a DOP853 step of size ``h`` from (t, y) into W rows."""
+    n = y.shape[0]
+    tmp = W[W_YTMP]
+    for s in range(first, last):
+        for i in range(n):
+            acc = 0.0
+            for j in range(s):
+                acc += DOP_A[s, j] * W[j, i]
+            tmp[i] = y[i] + h * acc
+        rhs(t + DOP_C[s] * h, tmp, p, W[s])
+
+
+@njit(cache=CACHE)
 def dop853_try(t, y, h, p, rtol, atol, W):
     """Attempt one DOP853 step from (t, y) with W[0] = f(t, y) already set.
 
@@ -69,14 +83,7 @@ def dop853_try(t, y, h, p, rtol, atol, W):
     """
     n = y.shape[0]
     K = W
-    tmp = W[W_YTMP]
-    for s in range(1, 12):
-        for i in range(n):
-            acc = 0.0
-            for j in range(s):
-                acc += DOP_A[s, j] * K[j, i]
-            tmp[i] = y[i] + h * acc
-        rhs(t + DOP_C[s] * h, tmp, p, K[s])
+    dop853_stages(t, y, h, p, W, 1, 12)
     ynew = W[W_YNEW]
     for i in range(n):
         acc = 0.0
@@ -179,15 +186,8 @@ def dop853_dense_prepare(t_old, h, y, p, W):
     """
     n = y.shape[0]
     K = W
-    tmp = W[W_YTMP]
     yold = W[W_YOLD]
-    for s in range(13, 16):
-        for i in range(n):
-            acc = 0.0
-            for j in range(s):
-                acc += DOP_A[s, j] * K[j, i]
-            tmp[i] = yold[i] + h * acc
-        rhs(t_old + DOP_C[s] * h, tmp, p, K[s])
+    dop853_stages(t_old, yold, h, p, W, 13, 16)
     for i in range(n):
         dy = y[i] - yold[i]
         W[W_F, i] = dy
