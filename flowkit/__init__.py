@@ -22,6 +22,7 @@ _LAZY = {
     "flux_growth": "flowkit.flux",
     "growth_rate": "flowkit.dynamo",
     "sweep_rm": "flowkit.dynamo",
+    "sweep_kz": "flowkit.dynamo",
     "critical_rm": "flowkit.dynamo",
 }
 

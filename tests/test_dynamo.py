@@ -1,7 +1,9 @@
 """Diffusive kinematic dynamo in the periodic box: operator, growth rates, curves, I/O, CLI.
 
 Outside references: exact identities (free decay at -k^2/Rm; B = u for a Beltrami
-flow with |k| = 1; decoupled k_z sectors of a z-independent flow), the published
+flow with |k| = 1; decoupled k_z sectors of a z-independent flow), the exact small-Rm
+limit of the Roberts-flow growth rate (second-order perturbation theory, derived
+below in ``roberts_small_rm_rate``), the published
 dynamo window of the ABC flow A = B = C = 1 (Vestnik Moskov. Univ. Ser. I Mat. Mekh.
 1983, no. 3; Geophys. Astrophys. Fluid Dyn. 36, 1986, 53), and scipy.linalg.eig on
 a Fourier-Galerkin matrix assembled here by hand from the flow formula.
@@ -15,7 +17,8 @@ import scipy.linalg
 
 import flowkit
 from flowkit.cli import main
-from flowkit.dynamo import GrowthResult, InductionOperator, RmSweep, critical_rm, growth_rate, sweep_rm
+from flowkit.dynamo import (GrowthResult, InductionOperator, KzScan, RmSweep, critical_rm, growth_rate, sweep_kz,
+                            sweep_rm)
 from flowkit.dynamo.fit import fit_growth
 from flowkit.dynamo.induction import Stepper
 from flowkit.errors import FlowkitError
@@ -131,6 +134,97 @@ def test_roberts_eigenvalue_is_the_best_kz_sector_of_scipy_galerkin_eigenvalues(
     assert res.growth_rate == pytest.approx(best.real, abs=1e-8)
     assert res.frequency == pytest.approx(abs(best.imag), abs=1e-8)
     assert sectors[1].real > 0 > sectors[0].real  # k_z = 1 grows, the 2-D sector cannot (anti-dynamo)
+    # the single-kz solver (N^2 grid) reproduces each sector on its own
+    for kz in (0, 1, 2):
+        one = growth_rate(flowkit.flow("roberts"), rm, n, "eigen", kz=float(kz), check_resolution=None)
+        assert one.growth_rate == pytest.approx(sectors[kz].real, abs=1e-8)
+        assert one.frequency == pytest.approx(abs(sectors[kz].imag), abs=1e-8)
+
+
+# -- one vertical wavenumber of a z-independent flow --------------------------------------
+
+def roberts_small_rm_rate(rm: float, kz: float) -> float:
+    """Growth rate of the field ``~ exp(i kz z)`` in the Roberts flow ``u = (cos y, sin x, sin y + cos x)``
+    to second order in ``Rm`` (exact limit; derived here, no number taken from a paper).
+
+    With ``eta = 1/Rm`` large, the unperturbed mode is the uniform-in-(x, y) field
+    ``B0 = (b1, b2, 0) exp(i kz z)`` decaying at ``-eta kz^2``. The flow's Fourier modes all
+    have horizontal ``|q| = 1``, so the field they induce decays at ``-eta (1 + kz^2)``: the
+    energy gap is exactly ``eta`` and ``b = [(B0 . grad) u - (u . grad) B0] / eta``. Its mean
+    electromotive force ``<u x b>`` uses ``<u x d_x u> = (-1, 0, 0)``, ``<u x d_y u> = (0, -1, 0)``
+    and ``<u_z u> = (0, 0, 1)``, giving ``curl <u x b> = (Rm) [[-kz^2, i kz], [-i kz, -kz^2]] B0``
+    with eigenvalues ``Rm (±kz - kz^2)`` (an alpha effect ``-Rm`` and an added diffusivity
+    ``Rm``). Third order vanishes (three horizontal unit wavevectors cannot sum to zero), so
+    the error is ``O(Rm^3)``.
+    """
+    return -kz**2 / rm + rm * (kz - kz**2)
+
+
+@pytest.mark.parametrize("kz", [0.1, 1.0, 2.0])
+def test_roberts_small_rm_growth_matches_second_order_perturbation_theory(kz):
+    roberts = flowkit.flow("roberts")
+    errors = []
+    for rm in (0.2, 0.1):
+        res = growth_rate(roberts, rm, 12, "eigen", kz=kz, check_resolution=None)
+        assert res.frequency < 1e-9
+        errors.append(res.growth_rate - roberts_small_rm_rate(rm, kz))
+    # the remainder is O(Rm^3): small, and 8 times smaller when Rm halves
+    assert abs(errors[0]) < 2 * 0.2**3
+    assert 6.0 < errors[0] / errors[1] < 10.0
+
+
+def test_roberts_flow_is_a_dynamo_at_small_rm_for_a_large_enough_scale():
+    # Roberts-flow dynamo action at any Rm for long enough vertical scales (Phil. Trans. R. Soc.
+    # A 271, 1972); the limit above puts the edge at kz = Rm^2 / (1 + Rm^2) = 0.138 for Rm = 0.4.
+    scan = sweep_kz(flowkit.flow("roberts"), 0.4, [0.05, 0.1, 0.2], resolution=12, progress=False)
+    assert scan.growth_rate[0] > 0 and scan.growth_rate[1] > 0 > scan.growth_rate[2]
+    assert scan.fastest[0] == 0.05
+    assert all(scan.converged) and np.all(scan.error_estimate < 1e-6)
+
+
+def test_single_kz_mode_is_solenoidal_and_floquet_agrees_with_march():
+    # time-periodic z-independent flow: Floquet multiplier and stroboscopic march on one kz
+    f = flowkit.flow("circular")
+    eig = growth_rate(f, 8.0, 12, "eigen", kz=0.57, check_resolution=None)
+    march = growth_rate(f, 8.0, 12, "march", kz=0.57, check_resolution=None)
+    assert march.growth_rate == pytest.approx(eig.growth_rate, abs=1e-6)
+    assert march.frequency == pytest.approx(eig.frequency, abs=1e-5)
+    assert eig.kz == 0.57 and eig.provenance["method_settings"]["kz"] == 0.57
+    # the mode on the box is Re/Im of b(x, y) exp(i kz z): divergence-free (exact derivative in z)
+    mode = eig.mode
+    assert mode.shape == (2, 3, 12, 12, 12)
+    k = np.fft.fftfreq(12, 1 / 12)
+    whole = mode[0] + 1j * mode[1]
+    b = whole[..., 0]  # z = 0 plane
+    hat = np.fft.fft2(b, axes=(1, 2))
+    div = 1j * (k[:, None] * hat[0] + k[None, :] * hat[1]) + 1j * 0.57 * hat[2]
+    assert np.abs(div).max() < 1e-10 * np.abs(hat).max()
+    np.testing.assert_allclose(whole[..., 5], b * np.exp(1j * 0.57 * 2 * np.pi * 5 / 12), atol=1e-12)
+
+
+def test_kz_scan_saves_plots_and_bad_kz_is_refused(tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from flowkit.dynamo.plot import plot_growth_curve
+
+    scan = sweep_kz(flowkit.flow("roberts"), 8.0, [0.5, 1.0], resolution=8, check_resolution=None,
+                    progress=False, save_to=tmp_path / "scan")
+    back = KzScan.load(tmp_path / "scan.npz")
+    np.testing.assert_array_equal(back.kz, [0.5, 1.0])
+    np.testing.assert_array_equal(back.growth_rate, scan.growth_rate)
+    assert back.rm == 8.0 and "kz" in scan.to_xarray().coords
+    fig, ax = plt.subplots()
+    assert plot_growth_curve(ax, scan)["line"] is not None and ax.get_xlabel().startswith("vertical")
+    plt.close(fig)
+    with pytest.raises(FlowkitError, match="`kz` needs a flow independent of z.*'abc'"):
+        growth_rate(flowkit.flow("abc"), 8.0, 8, kz=1.0)
+    with pytest.raises(FlowkitError, match="`kz` must be a finite number >= 0"):
+        growth_rate(flowkit.flow("roberts"), 8.0, 8, kz=-1.0)
+    with pytest.raises(FlowkitError, match="`kz_list`"):
+        sweep_kz(flowkit.flow("roberts"), 8.0, [], resolution=8)
 
 
 # -- published values ------------------------------------------------------------------
@@ -292,3 +386,13 @@ def test_cli_sweep_and_critical_report_or_explain(capsys, tmp_path):
     # both values decay (well below onset): no bracket, and the message says how to widen it
     code = main(["dynamo", "abc", "--critical", "--rm-list", "1,2", "--resolution", "8", "--no-progress", "--json"])
     assert code == 2 and "widen the list" in json.loads(capsys.readouterr().out)["error"]
+
+
+def test_cli_kz_scan_reports_the_fastest_wavenumber(capsys):
+    code = main(["dynamo", "roberts", "--rm", "0.4", "--kz-list", "0.05,0.2", "--resolution", "8",
+                 "--check-resolution", "none", "--no-progress", "--json"])
+    out = json.loads(capsys.readouterr().out)
+    assert code == 0 and out["kz"] == [0.05, 0.2] and out["fastest"]["kz"] == 0.05
+    assert out["growth_rate"][0] > 0 > out["growth_rate"][1]  # see the small-Rm limit above
+    code = main(["dynamo", "roberts", "--kz-list", "0.1", "--json"])
+    assert code == 2 and "add --rm" in json.loads(capsys.readouterr().out)["error"]

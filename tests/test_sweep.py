@@ -142,6 +142,9 @@ def test_line_stretching_and_dynamo_measures_on_exact_cases():
     rest = flowkit.custom_flow(["0", "0", "0"], domain="periodic", name="rest")
     out = dynamo_growth(rest, seed=0, rm=4.0, resolution=12)
     assert abs(out["value"] + 0.25) < 1e-8
+    # one vertical wavenumber kz = 0.5: the slowest mode is uniform in (x, y), rate -kz^2/Rm exactly
+    out = dynamo_growth(rest, seed=0, rm=4.0, resolution=12, kz=0.5)
+    assert abs(out["value"] + 0.0625) < 1e-8
 
 
 def test_sweep_plots_draw_the_stored_numbers(tmp_path):

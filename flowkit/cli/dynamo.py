@@ -1,7 +1,9 @@
 """``flowkit dynamo FLOW``: growth rate of the leading magnetic mode at finite Rm (periodic box).
 
 One Rm (``--rm``), a curve (``--rm-list``), or the onset (``--critical``, which
-scans ``--rm-list`` upward for the first sign change and refines it).
+scans ``--rm-list`` upward for the first sign change and refines it). For a flow
+independent of z, ``--kz K`` solves for one vertical wavenumber (any real value)
+and ``--kz-list`` scans wavenumbers at one ``--rm`` (the dispersion relation).
 """
 
 from __future__ import annotations
@@ -17,6 +19,10 @@ def add(sub):
     p.add_argument("--rm-list", metavar="R1,R2,...", help="comma-separated Rm values for a sweep")
     p.add_argument("--critical", action="store_true",
                    help="find the critical Rm (first decay-to-growth sign change along --rm-list, then Brent)")
+    p.add_argument("--kz", type=float, metavar="K",
+                   help="z-independent flows: solve for fields exp(i K z), any real K >= 0 (N^2 grid)")
+    p.add_argument("--kz-list", metavar="K1,K2,...",
+                   help="z-independent flows: growth rate at each vertical wavenumber, at --rm")
     p.add_argument("--resolution", type=int, default=32, help="grid points per side N (even, default 32)")
     p.add_argument("--method", choices=["eigen", "march"], default="eigen",
                    help="eigen: Arnoldi on the operator (Floquet map if time-periodic); march: time stepping + fit")
@@ -29,13 +35,13 @@ def add(sub):
     return p
 
 
-def _rm_list(text: str | None) -> list[float] | None:
+def _number_list(text: str | None, option: str, example: str) -> list[float] | None:
     if text is None:
         return None
     try:
         return [float(v) for v in text.split(",") if v.strip()]
     except ValueError:
-        raise FlowkitError(f"--rm-list expects comma-separated numbers, e.g. 5,10,20; got {text!r}") from None
+        raise FlowkitError(f"{option} expects comma-separated numbers, e.g. {example}; got {text!r}") from None
 
 
 def _check(text: str):
@@ -50,12 +56,27 @@ def _check(text: str):
 
 
 def run(args) -> dict:
-    from flowkit.dynamo import critical_rm, growth_rate, sweep_rm
+    from flowkit.dynamo import critical_rm, growth_rate, sweep_kz, sweep_rm
 
     flow = flow_from_args(args)
-    rms = _rm_list(args.rm_list)
+    rms = _number_list(args.rm_list, "--rm-list", "5,10,20")
+    kzs = _number_list(args.kz_list, "--kz-list", "0.25,0.5,1")
     check = _check(args.check_resolution)
     common = {"resolution": args.resolution, "method": args.method}
+    if kzs is not None:
+        if args.kz is not None or rms is not None or args.critical:
+            raise FlowkitError("--kz-list scans wavenumbers at one --rm; drop --kz, --rm-list and --critical")
+        if args.rm is None:
+            raise FlowkitError("--kz-list needs the magnetic Reynolds number: add --rm R")
+        res = sweep_kz(flow, args.rm, kzs, check_resolution=check, tolerance=args.tolerance,
+                       progress=not args.no_progress, **common)
+        out = res.summary()
+        out["fastest"] = dict(zip(("kz", "growth_rate"), res.fastest)) if len(res.kz) else None
+        if args.save:
+            out["saved"] = str(res.save(args.save))
+        return out
+    if args.kz is not None:
+        common["kz"] = args.kz
     if args.critical:
         kw = {} if rms is None else {"rm_list": rms}
         res = critical_rm(flow, check_resolution=check, progress=not args.no_progress, **common, **kw)
@@ -86,13 +107,20 @@ def human(result: dict) -> str:
         return (f"critical Rm = {result['rm_critical']:.4f} +/- {result['uncertainty']:.2g} "
                 f"(bracket {result['bracket']}, frequency {result['frequency']:.4g}, N = {result['resolution']})")
     if "points" in result:
-        lines = [f"{'Rm':>10} {'growth rate':>13} {'frequency':>10} {'error':>9} converged"]
+        by_kz = "kz" in result and isinstance(result["kz"], list)
+        axis = "kz" if by_kz else "rm"
+        lines = [f"Rm = {result['rm']:g}" if by_kz else "",
+                 f"{'kz' if by_kz else 'Rm':>10} {'growth rate':>13} {'frequency':>10} "
+                 f"{'error':>9} converged"]
         for p in result["points"]:
-            lines.append(f"{p['rm']:>10.4g} {_num(p['growth_rate'], '13.6f')} {_num(p['frequency'], '10.5f')} "
+            lines.append(f"{p[axis]:>10.4g} {_num(p['growth_rate'], '13.6f')} {_num(p['frequency'], '10.5f')} "
                          f"{_num(p['error_estimate'], '9.2g')} {p['converged']}")
-        return "\n".join(lines)
+        if result.get("fastest"):
+            lines.append(f"fastest: kz = {result['fastest']['kz']:g}, growth rate {result['fastest']['growth_rate']:.6f}")
+        return "\n".join(line for line in lines if line)
+    kz = "" if result.get("kz") is None else f", kz = {result['kz']:g}"
     return (f"growth rate {_num(result['growth_rate'], '.6f')}, frequency {_num(result['frequency'], '.6f')} at "
-            f"Rm = {result['rm']:g}, N = {result['resolution']} ({result['method']}); "
+            f"Rm = {result['rm']:g}{kz}, N = {result['resolution']} ({result['method']}); "
             f"error estimate {_num(result['error_estimate'], '.2g')} "
             f"vs N = {result['check'].get('resolution')}, converged: {result['converged']}; "
             f"{result['seconds']:.1f} s")

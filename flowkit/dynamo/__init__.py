@@ -8,7 +8,9 @@ box for any steady or time-periodic periodic flow of the library:
   time stepping and a fit with the oscillation in the model (``method="march"``),
   with a resolution-convergence estimate;
 - :func:`sweep_rm`, :func:`critical_rm`: curves against ``Rm`` and the onset;
-- :class:`GrowthResult`, :class:`RmSweep`, :class:`CriticalRm`: results with
+- ``kz=...`` (any function above) and :func:`sweep_kz`: for flows independent of
+  ``z``, one vertical wavenumber at a time, any real value (dispersion relation);
+- :class:`GrowthResult`, :class:`RmSweep`, :class:`KzScan`, :class:`CriticalRm`: results with
   provenance, ``save``/``load`` (npz, no pickle), ``to_xarray``;
 - :mod:`flowkit.dynamo.plot`: ``plot_mode_slice``, ``plot_growth_curve``.
 
@@ -17,9 +19,10 @@ integrating-factor RK4), ``fit`` (oscillating exponential fit), ``growth``
 (the two methods), ``curves`` (sweeps, critical Rm), ``results``, ``plot``.
 """
 
-from flowkit.dynamo.curves import critical_rm, sweep_rm
+from flowkit.dynamo.curves import critical_rm, sweep_kz, sweep_rm
 from flowkit.dynamo.growth import growth_rate
 from flowkit.dynamo.induction import InductionOperator
-from flowkit.dynamo.results import CriticalRm, GrowthResult, RmSweep
+from flowkit.dynamo.results import CriticalRm, GrowthResult, KzScan, RmSweep
 
-__all__ = ["growth_rate", "sweep_rm", "critical_rm", "InductionOperator", "GrowthResult", "RmSweep", "CriticalRm"]
+__all__ = ["growth_rate", "sweep_rm", "sweep_kz", "critical_rm", "InductionOperator", "GrowthResult", "RmSweep",
+           "KzScan", "CriticalRm"]

@@ -1,4 +1,4 @@
-"""Growth rate against ``Rm`` and the critical ``Rm`` of dynamo onset."""
+"""Growth rate against ``Rm`` (or against ``kz`` at one ``Rm``) and the critical ``Rm`` of dynamo onset."""
 
 from __future__ import annotations
 
@@ -10,7 +10,8 @@ from scipy.optimize import brentq
 
 from flowkit.dynamo.growth import default_check_resolution, growth_rate
 from flowkit.dynamo.induction import check_periodic, check_rm
-from flowkit.dynamo.results import CriticalRm, RmSweep, stamp
+from flowkit.dynamo.results import CriticalRm, KzScan, RmSweep, stamp
+from flowkit.dynamo.spectral import check_kz
 from flowkit.errors import FlowkitError
 
 
@@ -43,7 +44,8 @@ def sweep_rm(flow, rm_list, resolution: int = 32, method: str = "eigen", progres
     rm_list : sequence of float
         Magnetic Reynolds numbers (any order; evaluated as given).
     resolution, method, **kwargs
-        Passed to :func:`~flowkit.dynamo.growth.growth_rate` (``keep_mode`` is off).
+        Passed to :func:`~flowkit.dynamo.growth.growth_rate` (``keep_mode`` is off;
+        ``kz=...`` fixes a vertical wavenumber for a ``z``-independent flow).
     progress : bool
         Show a tqdm progress bar (works in notebooks and terminals).
     save_to : path, optional
@@ -57,36 +59,82 @@ def sweep_rm(flow, rm_list, resolution: int = 32, method: str = "eigen", progres
     """
     check_periodic(flow)
     rms = _rm_values(rm_list)
+
+    def collect(done, settings, seconds):
+        return RmSweep(rm=np.array([r.rm for r in done]), **_curve_arrays(done), points=[r.summary() for r in done],
+                       provenance=stamp(flow, settings), seconds=seconds)
+
+    return _run_curve(flow, rms, lambda rm, kw: growth_rate(flow, rm, resolution, method, **kw), collect,
+                      {"method": method, "resolution": resolution}, kwargs, progress, save_to,
+                      f"growth rate ({flow.name}, N={resolution})")
+
+
+def sweep_kz(flow, rm: float, kz_list, resolution: int = 32, method: str = "eigen", progress: bool = True,
+             save_to=None, **kwargs) -> KzScan:
+    """Growth rate of the leading mode at each vertical wavenumber of ``kz_list``, at one ``Rm``.
+
+    For a flow independent of ``z`` each ``kz`` is a separate eigenproblem on an
+    ``N^2`` grid (see :class:`~flowkit.dynamo.spectral.VerticalWaveGrid`), so
+    ``kz`` need not be an integer: this is the dynamo's dispersion relation, and
+    ``result.fastest`` the fastest-growing scale.
+
+    Parameters
+    ----------
+    flow : Flow
+        Periodic flow independent of ``z``.
+    rm : float
+        Magnetic Reynolds number.
+    kz_list : sequence of float
+        Vertical wavenumbers ``>= 0``.
+    resolution, method, progress, save_to, **kwargs
+        As for :func:`sweep_rm`.
+
+    Returns
+    -------
+    KzScan
+    """
+    check_periodic(flow)
+    rm = check_rm(rm)
+    try:
+        kzs = [check_kz(k) for k in np.atleast_1d(np.asarray(kz_list, dtype=object)).ravel()]
+    except FlowkitError as exc:
+        raise FlowkitError(f"every value of `kz_list` must be a wavenumber >= 0: {exc}") from None
+    if not kzs:
+        raise FlowkitError("`kz_list` is empty; pass e.g. kz_list=[0.25, 0.5, 1.0]")
+
+    def collect(done, settings, seconds):
+        return KzScan(kz=np.array([r.kz for r in done]), **_curve_arrays(done), rm=rm,
+                      points=[r.summary() for r in done], provenance=stamp(flow, settings), seconds=seconds)
+
+    return _run_curve(flow, kzs, lambda kz, kw: growth_rate(flow, rm, resolution, method, kz=kz, **kw), collect,
+                      {"method": method, "resolution": resolution, "rm": rm}, kwargs, progress, save_to,
+                      f"growth rate vs kz ({flow.name}, Rm={rm:g})")
+
+
+def _curve_arrays(done) -> dict:
+    return {"growth_rate": np.array([r.growth_rate for r in done]),
+            "frequency": np.array([r.frequency for r in done]),
+            "error_estimate": np.array([r.error_estimate for r in done]),
+            "converged": [r.converged for r in done]}
+
+
+def _run_curve(flow, values, compute, collect, settings, kwargs, progress, save_to, desc):
+    """Evaluate ``compute(value, kwargs)`` along ``values``; save after each point; Ctrl-C keeps what finished."""
     kwargs.setdefault("keep_mode", False)
+    settings = {**settings, **{k: v for k, v in kwargs.items() if k != "keep_mode"}}
     t0 = time.perf_counter()
     done: list = []
-    sweep = None
     interrupted = False
     try:
-        for rm in _progress(rms, progress, f"growth rate ({flow.name}, N={resolution})"):
-            done.append(growth_rate(flow, rm, resolution, method, **kwargs))
-            sweep = _collect(flow, done, resolution, method, kwargs, t0)
+        for value in _progress(values, progress, desc):
+            done.append(compute(value, kwargs))
             if save_to is not None:
-                sweep.save(save_to)
+                collect(done, settings, time.perf_counter() - t0).save(save_to)
     except KeyboardInterrupt:
         interrupted = True
-    sweep = _collect(flow, done, resolution, method, kwargs, t0)
-    sweep.provenance["interrupted"] = interrupted
-    return sweep
-
-
-def _collect(flow, done, resolution, method, kwargs, t0) -> RmSweep:
-    return RmSweep(
-        rm=np.array([r.rm for r in done]),
-        growth_rate=np.array([r.growth_rate for r in done]),
-        frequency=np.array([r.frequency for r in done]),
-        error_estimate=np.array([r.error_estimate for r in done]),
-        converged=[r.converged for r in done],
-        points=[r.summary() for r in done],
-        provenance=stamp(flow, {"method": method, "resolution": resolution,
-                                **{k: v for k, v in kwargs.items() if k != "keep_mode"}}),
-        seconds=time.perf_counter() - t0,
-    )
+    curve = collect(done, settings, time.perf_counter() - t0)
+    curve.provenance["interrupted"] = interrupted
+    return curve
 
 
 def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution: int = 32,

@@ -20,7 +20,7 @@ from scipy.sparse.linalg import ArpackNoConvergence, eigs
 from flowkit.dynamo.fit import fit_growth
 from flowkit.dynamo.induction import InductionOperator, Stepper, check_periodic, check_rm
 from flowkit.dynamo.results import GrowthResult, stamp
-from flowkit.dynamo.spectral import MIN_RESOLUTION
+from flowkit.dynamo.spectral import MIN_RESOLUTION, check_kz
 from flowkit.dynamo.spectral import check_resolution as _check_n
 from flowkit.errors import FlowkitError
 
@@ -33,9 +33,9 @@ MARCH_DEFAULTS = {"t_min": 40.0, "t_max": 400.0, "chunk": 10.0, "cfl": 1.5, "cha
 
 
 def _spectral_tail(op: InductionOperator, coeffs: np.ndarray) -> float:
-    """Energy fraction of a mode in the outer third of the kept wavenumbers."""
+    """Energy fraction of a mode in the outer third of the kept (horizontal, for one ``kz``) wavenumbers."""
     g = op.grid
-    kinf = np.max(np.abs(g.k), axis=0)
+    kinf = np.max(np.abs(g.k if g.kz is None else g.k[:2]), axis=0)
     p = np.sum(np.abs(coeffs) ** 2, axis=tuple(range(coeffs.ndim - 1)))
     total = p.sum()
     return float(p[kinf > 2 * g.kmax / 3].sum() / total) if total else 0.0
@@ -43,7 +43,11 @@ def _spectral_tail(op: InductionOperator, coeffs: np.ndarray) -> float:
 
 def _mode_on_grid(op: InductionOperator, parts: np.ndarray) -> np.ndarray:
     """Real and imaginary parts ``(2, 3, M)`` of a mode -> ``(2, 3, N, N, N)`` fields, max |B| = 1."""
-    mode = np.stack([op.grid.inverse(p) for p in parts])
+    fields = [op.grid.box_field(p) for p in parts]
+    if op.grid.complex_dof:  # one kz: the two parts combine into one complex field b exp(i kz z)
+        whole = fields[0] + 1j * fields[1]
+        fields = [whole.real, whole.imag]
+    mode = np.stack(fields)
     scale = np.sqrt(np.sum(mode**2, axis=1)).max()
     return mode / scale if scale > 0 else mode
 
@@ -188,7 +192,7 @@ def default_check_resolution(n: int) -> int:
 
 def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", check_resolution="auto",
                 tolerance: float = 1e-3, keep_mode: bool = True, workers: int | None = None,
-                **settings) -> GrowthResult:
+                kz: float | None = None, **settings) -> GrowthResult:
     """Growth rate and frequency of the leading magnetic mode of ``flow`` at ``rm``.
 
     Parameters
@@ -212,6 +216,10 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
         Keep the leading mode on the grid (``result.mode``).
     workers : int, optional
         FFT threads (default: all cores).
+    kz : float, optional
+        For a flow independent of ``z``: solve for fields ``Re[b(x, y) exp(i kz z)]``
+        of this one vertical wavenumber, any real ``kz >= 0`` (``N^2`` grid; the
+        box's own ``kz`` are the integers). ``None``: the full ``N^3`` box.
     **settings
         Method settings (see :data:`EIGEN_DEFAULTS`, :data:`MARCH_DEFAULTS`).
 
@@ -230,7 +238,9 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
     if unknown:
         raise FlowkitError(f"unknown {method} settings {unknown}; known: {', '.join(defaults)}")
     opts = {**defaults, **settings}
-    op = InductionOperator(flow, rm, resolution, workers)
+    if kz is not None:
+        kz = check_kz(kz)
+    op = InductionOperator(flow, rm, resolution, workers, kz=kz)
     raw = runner(op, **opts)
     coeffs = raw.pop("coeffs")
     diagnostics = {k: v for k, v in raw.items() if k not in ("growth_rate", "frequency")}
@@ -245,7 +255,7 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
         other = check_resolution_value(other, "check_resolution")
         if other == resolution:
             raise FlowkitError("`check_resolution` must differ from `resolution` (e.g. 3N/2, or 'auto' for 2N/3)")
-        raw2 = runner(InductionOperator(flow, rm, other, workers), **opts)
+        raw2 = runner(InductionOperator(flow, rm, other, workers, kz=kz), **opts)
         check = {"resolution": other, "growth_rate": raw2["growth_rate"], "frequency": raw2["frequency"],
                  "converged": raw2["converged"]}
         error = abs(raw["growth_rate"] - raw2["growth_rate"])
@@ -253,10 +263,10 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
     mode = _mode_on_grid(op, coeffs) if (keep_mode and coeffs is not None) else None
     return GrowthResult(
         growth_rate=raw["growth_rate"], frequency=raw["frequency"], rm=rm, resolution=resolution,
-        method=method, converged=converged, error_estimate=error, tolerance=tolerance, check=check,
+        method=method, kz=kz, converged=converged, error_estimate=error, tolerance=tolerance, check=check,
         diagnostics=diagnostics, mode=mode,
         provenance=stamp(flow, {"method": method, "resolution": resolution, "rm": rm,
-                                "check_resolution": other, "tolerance": tolerance,
+                                "check_resolution": other, "tolerance": tolerance, "kz": kz,
                                 "dealiasing": "2/3 rule", **opts}),
         seconds=time.perf_counter() - t0,
     )

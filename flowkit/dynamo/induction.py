@@ -17,7 +17,7 @@ import scipy.fft
 from scipy.sparse.linalg import LinearOperator
 
 from flowkit.dynamo._kernels import cross_into, curl_diffuse
-from flowkit.dynamo.spectral import SpectralGrid
+from flowkit.dynamo.spectral import SpectralGrid, VerticalWaveGrid
 from flowkit.errors import FlowkitError
 
 #: Velocity energy allowed beyond the 2/3-rule cut-off before a grid is called too coarse.
@@ -60,16 +60,18 @@ def velocity_spectrum_check(flow, grid: SpectralGrid) -> dict:
     Returns the tail fraction and the smallest resolution that holds the flow.
     """
     pts = grid.points()
+    shape = grid.shape
+    axes = tuple(range(1, 1 + len(shape)))
+    freqs = [np.abs(np.fft.fftfreq(s, 1.0 / s)) for s in shape]
+    kinf = np.maximum(np.maximum(freqs[0][:, None, None], freqs[1][None, :, None]), freqs[2][None, None, :])
     tail, need = 0.0, 0
     for t in _sample_times(flow):
-        u = flow.velocity(pts, t).T.reshape((3,) + (grid.n,) * 3)
-        power = np.sum(np.abs(scipy.fft.fftn(u, axes=(1, 2, 3), workers=grid.workers)) ** 2, axis=0)
+        u = flow.velocity(pts, t).T.reshape((3,) + shape)
+        power = np.sum(np.abs(scipy.fft.fftn(u, axes=axes, workers=grid.workers)) ** 2, axis=0)
         power[0, 0, 0] = 0.0  # a mean flow is allowed
         total = power.sum()
         if total == 0.0:
             continue
-        k = np.abs(np.fft.fftfreq(grid.n, 1.0 / grid.n))
-        kinf = np.maximum(np.maximum(k[:, None, None], k[None, :, None]), k[None, None, :])
         tail = max(tail, float(power[kinf > grid.kmax].sum() / total))
         significant = power > VELOCITY_TAIL_TOL * total
         need = max(need, int(kinf[significant].max()))
@@ -88,6 +90,22 @@ def velocity_spectrum_check(flow, grid: SpectralGrid) -> dict:
     return {"velocity_tail": tail, "velocity_kmax": need}
 
 
+def check_z_independent(flow, grid: SpectralGrid) -> None:
+    """A single vertical wavenumber is an exact eigenproblem only for a flow independent of ``z``."""
+    base = grid.points()
+    for t in _sample_times(flow):
+        u0 = flow.velocity(base, t)
+        scale = max(float(np.abs(u0).max()), 1e-300)
+        for z in (0.7390851332, 2.2, 4.81):  # arbitrary heights, none a fraction of the period
+            shifted = base.copy()
+            shifted[:, 2] = z
+            if float(np.abs(flow.velocity(shifted, t) - u0).max()) > 1e-12 * scale:
+                raise FlowkitError(
+                    f"`kz` needs a flow independent of z (then each vertical wavenumber is a separate "
+                    f"eigenproblem); flow '{flow.name}' varies with z. Drop kz to solve in the full 3-D box."
+                )
+
+
 class InductionOperator:
     """The induction operator of one flow at one ``Rm`` on one grid.
 
@@ -101,19 +119,24 @@ class InductionOperator:
         Grid points per side.
     workers : int, optional
         FFT threads (default: all cores).
+    kz : float, optional
+        Solve for fields ``Re[b(x, y) exp(i kz z)]`` of this one vertical wavenumber
+        (any real ``kz >= 0``) on an ``N^2`` grid; needs a flow independent of ``z``.
+        ``None`` (default): the full ``N^3`` box.
     """
 
-    def __init__(self, flow, rm: float, resolution: int, workers: int | None = None):
+    def __init__(self, flow, rm: float, resolution: int, workers: int | None = None, kz: float | None = None):
         check_periodic(flow)
         self.rm = check_rm(rm)
         self.eta = 1.0 / self.rm
         self.flow = flow
-        self.grid = SpectralGrid(resolution, workers)
+        self.grid = SpectralGrid(resolution, workers) if kz is None else VerticalWaveGrid(resolution, kz, workers)
+        if kz is not None:
+            check_z_independent(flow, self.grid)
         self.resolution_info = velocity_spectrum_check(flow, self.grid)
         self._points = self.grid.points()
         self._u_time = None
         self._u = None
-        self._work = np.empty((3,) + (self.grid.n,) * 3)
         self.matvecs = 0
         if flow.steady:
             self._u = self._sample(0.0)
@@ -127,11 +150,10 @@ class InductionOperator:
         return self.flow.period
 
     def _sample(self, t: float) -> np.ndarray:
-        n = self.grid.n
-        return np.ascontiguousarray(self.flow.velocity(self._points, t).T.reshape(3, n, n, n))
+        return np.ascontiguousarray(self.flow.velocity(self._points, t).T.reshape((3,) + self.grid.shape))
 
     def velocity(self, t: float = 0.0) -> np.ndarray:
-        """Velocity on the grid, shape ``(3, N, N, N)`` (kept for the last time asked)."""
+        """Velocity on the grid, shape ``(3,) + grid.shape`` (kept for the last time asked)."""
         if self.steady:
             return self._u
         if self._u_time != t:
@@ -157,16 +179,21 @@ class InductionOperator:
         return out
 
     def linear_operator(self) -> LinearOperator:
-        """The steady induction operator on real transverse amplitudes (for Arnoldi)."""
+        """The steady induction operator on packed transverse amplitudes (for Arnoldi)."""
         if not self.steady:
             raise FlowkitError("the induction operator of a time-periodic flow has no eigenvalues; "
                                "use the Floquet (one-period propagator) form")
         g = self.grid
         return LinearOperator((g.dof, g.dof), matvec=lambda v: g.pack(self.apply(g.unpack(np.ravel(v)))),
-                              dtype=np.float64)
+                              dtype=self.dof_dtype)
+
+    @property
+    def dof_dtype(self):
+        """Type of the packed vectors: real for the 3-D box, complex for one ``kz``."""
+        return np.complex128 if self.grid.complex_dof else np.float64
 
     def propagator(self, duration: float, dt: float, t0: float = 0.0) -> LinearOperator:
-        """``B(t0) -> B(t0 + duration)`` on real transverse amplitudes (Floquet map over a period)."""
+        """``B(t0) -> B(t0 + duration)`` on packed transverse amplitudes (Floquet map over a period)."""
         g = self.grid
         stepper = Stepper(self, dt)
         nsteps = max(1, int(math.ceil(duration / dt - 1e-9)))
@@ -178,7 +205,7 @@ class InductionOperator:
             c = stepper.advance(c, t0, nsteps)
             return g.pack(c)
 
-        return LinearOperator((g.dof, g.dof), matvec=matvec, dtype=np.float64)
+        return LinearOperator((g.dof, g.dof), matvec=matvec, dtype=self.dof_dtype)
 
     def stable_dt(self, cfl: float = 1.0) -> float:
         """Advective step limit: ``cfl / (K max(|u_x| + |u_y| + |u_z|))``.

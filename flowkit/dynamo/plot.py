@@ -63,24 +63,30 @@ def plot_mode_slice(ax, result, axis: str = "z", position: float = 0.0, part: st
     lines = ax.streamplot(h, v, bh, bv, color=line_color, density=density, linewidth=0.7,
                           arrowsize=0.7)
     ax.set(xlim=(0, 2 * np.pi), ylim=(0, 2 * np.pi), xlabel=lh, ylabel=lv,
-           title=f"{part} part, {axis} = {position:.2f}, Rm = {result.rm:g}")
+           title=f"{part} part, {axis} = {position:.2f}, Rm = {result.rm:g}"
+                 + ("" if getattr(result, "kz", None) is None else f", kz = {result.kz:g}"))
     ax.set_aspect("equal")
     cbar = ax.figure.colorbar(image, ax=ax, label="|B|") if colorbar else None
     return {"image": image, "lines": lines, "colorbar": cbar}
 
 
 def plot_growth_curve(ax, sweep, critical=None, color: str = "C0", **line_kw) -> dict:
-    """Growth rate against ``Rm`` with resolution error bars; optional critical-``Rm`` marker.
+    """Growth rate against ``Rm`` (an :class:`RmSweep`) or against ``kz`` (a :class:`KzScan`),
+    with resolution error bars; optional critical-``Rm`` marker.
 
     Returns ``{"line": ErrorbarContainer, "zero": Line2D, "critical": artist or None}``.
     """
-    rm = np.asarray(sweep.rm)
+    by_kz = getattr(sweep, "axis", "rm") == "kz"
+    x = np.asarray(sweep.kz if by_kz else sweep.rm)
     err = np.nan_to_num(np.asarray(sweep.error_estimate, dtype=float), nan=0.0)
-    line = ax.errorbar(rm, sweep.growth_rate, yerr=err, marker="o", color=color, capsize=2, **line_kw)
+    line = ax.errorbar(x, sweep.growth_rate, yerr=err, marker="o", color=color, capsize=2, **line_kw)
     zero = ax.axhline(0.0, color="0.5", lw=0.8, ls="--")
     mark = None
     if critical is not None:
         mark = ax.axvspan(critical.rm_critical - critical.uncertainty, critical.rm_critical + critical.uncertainty,
                           color="C3", alpha=0.25, label=f"Rm_c = {critical.rm_critical:.3f}")
-    ax.set(xlabel="magnetic Reynolds number Rm", ylabel="growth rate")
+    if by_kz:
+        ax.set(xlabel="vertical wavenumber kz", ylabel="growth rate", title=f"Rm = {sweep.rm:g}")
+    else:
+        ax.set(xlabel="magnetic Reynolds number Rm", ylabel="growth rate")
     return {"line": line, "zero": zero, "critical": mark}

@@ -56,6 +56,9 @@ class GrowthResult:
         Grid points per side of the reported value.
     method : str
         ``"eigen"`` (Arnoldi) or ``"march"`` (time stepping and fit).
+    kz : float or None
+        The single vertical wavenumber solved for (``z``-independent flows), or
+        ``None`` for the full 3-D box.
     converged : bool or None
         Whether the growth rate agrees within ``tolerance`` with the run at
         ``check["resolution"]`` and the solver itself converged; ``None`` if no check ran.
@@ -77,6 +80,7 @@ class GrowthResult:
     rm: float
     resolution: int
     method: str
+    kz: float | None = None
     converged: bool | None = None
     error_estimate: float = float("nan")
     tolerance: float = 1e-3
@@ -119,8 +123,44 @@ class GrowthResult:
         return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
+class _GrowthCurve:
+    """Save/load/xarray shared by growth-rate curves; ``axis`` names the varied quantity."""
+
+    axis = "rm"
+
+    def summary(self) -> dict:
+        return json.loads(json.dumps(asdict(self), default=_json_default))
+
+    def save(self, path) -> Path:
+        """Write ``path`` (``.npz``; no pickle needed to load)."""
+        names = (self.axis, "growth_rate", "frequency", "error_estimate")
+        arrays = {k: np.asarray(getattr(self, k), dtype=float) for k in names}
+        meta = {f.name: getattr(self, f.name) for f in fields(self) if f.name not in names}
+        return _write(path, arrays, json.loads(json.dumps({"type": type(self).__name__, **meta},
+                                                          default=_json_default)))
+
+    @classmethod
+    def load(cls, path):
+        meta, arrays = _read(path)
+        meta.pop("type", None)
+        return cls(**arrays, **meta)
+
+    def to_xarray(self):
+        import xarray as xr
+
+        a = self.axis
+        return xr.Dataset(
+            {"growth_rate": (a, np.asarray(self.growth_rate)),
+             "frequency": (a, np.asarray(self.frequency)),
+             "error_estimate": (a, np.asarray(self.error_estimate)),
+             "converged": (a, np.array([bool(c) for c in self.converged]))},
+            coords={a: np.asarray(getattr(self, a))},
+            attrs={"metadata_json": json.dumps(self.summary()["provenance"])},
+        )
+
+
 @dataclass
-class RmSweep:
+class RmSweep(_GrowthCurve):
     """Growth rate against ``Rm`` (one :class:`GrowthResult` summary per point)."""
 
     rm: np.ndarray
@@ -132,33 +172,31 @@ class RmSweep:
     provenance: dict = field(default_factory=dict, repr=False)
     seconds: float = 0.0
 
-    def summary(self) -> dict:
-        return json.loads(json.dumps(asdict(self), default=_json_default))
 
-    def save(self, path) -> Path:
-        meta = {"type": "RmSweep", "converged": self.converged, "points": self.points,
-                "provenance": self.provenance, "seconds": self.seconds}
-        arrays = {k: np.asarray(getattr(self, k), dtype=float)
-                  for k in ("rm", "growth_rate", "frequency", "error_estimate")}
-        return _write(path, arrays, json.loads(json.dumps(meta, default=_json_default)))
+@dataclass
+class KzScan(_GrowthCurve):
+    """Growth rate against the vertical wavenumber ``kz`` at one ``Rm`` (``z``-independent flows).
 
-    @classmethod
-    def load(cls, path) -> "RmSweep":
-        meta, arrays = _read(path)
-        meta.pop("type", None)
-        return cls(**arrays, **meta)
+    The dispersion relation of the dynamo: which vertical scale grows fastest.
+    """
 
-    def to_xarray(self):
-        import xarray as xr
+    kz: np.ndarray
+    growth_rate: np.ndarray
+    frequency: np.ndarray
+    error_estimate: np.ndarray
+    converged: list
+    rm: float = float("nan")
+    points: list = field(default_factory=list, repr=False)
+    provenance: dict = field(default_factory=dict, repr=False)
+    seconds: float = 0.0
 
-        return xr.Dataset(
-            {"growth_rate": ("rm", np.asarray(self.growth_rate)),
-             "frequency": ("rm", np.asarray(self.frequency)),
-             "error_estimate": ("rm", np.asarray(self.error_estimate)),
-             "converged": ("rm", np.array([bool(c) for c in self.converged]))},
-            coords={"rm": np.asarray(self.rm)},
-            attrs={"metadata_json": json.dumps(self.summary()["provenance"])},
-        )
+    axis = "kz"
+
+    @property
+    def fastest(self) -> tuple[float, float]:
+        """``(kz, growth rate)`` of the fastest-growing scanned wavenumber."""
+        i = int(np.nanargmax(self.growth_rate))
+        return float(self.kz[i]), float(self.growth_rate[i])
 
 
 @dataclass

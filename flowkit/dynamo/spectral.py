@@ -9,6 +9,12 @@ active modes, shape ``(3, M)``; the eigen solver works on a real vector of
 independent degrees of freedom, two transverse amplitudes per wavevector (so
 ``k . B = 0`` holds exactly and the Hermitian redundancy of the ``k_z = 0`` plane
 is removed: no spurious eigenvalues).
+
+:class:`VerticalWaveGrid` is the same machinery for flows independent of ``z``:
+the field is ``B = Re[b(x, y) exp(i kz z)]`` with any real vertical wavenumber
+``kz`` (not only the integers a ``2*pi`` box allows), ``b`` complex on an ``N^2``
+grid. A ``z``-independent flow couples no two values of ``kz``, so each is an
+exact, separate eigenproblem (the classical setting of Roberts-type dynamos).
 """
 
 from __future__ import annotations
@@ -61,6 +67,12 @@ class SpectralGrid:
     def __init__(self, n: int, workers: int | None = None):
         self.n = check_resolution(n)
         self.workers = int(workers) if workers else default_workers()
+        #: vertical wavenumber of a single-``kz`` grid (None: the full 3-D box)
+        self.kz = None
+        #: ``(3,) + shape`` is the layout of a field on the grid
+        self.shape = (self.n,) * 3
+        #: whether :meth:`pack` gives complex amplitudes (the operator is then complex)
+        self.complex_dof = False
         self.kmax = (self.n - 1) // 3  # largest kept |k_i|: 3 * kmax < n
         n = self.n
         kx = np.fft.fftfreq(n, 1.0 / n)
@@ -82,6 +94,10 @@ class SpectralGrid:
         x = 2 * np.pi * np.arange(self.n) / self.n
         X, Y, Z = np.meshgrid(x, x, x, indexing="ij")
         return np.stack([X.ravel(), Y.ravel(), Z.ravel()], axis=1)
+
+    def box_field(self, coeffs: np.ndarray) -> np.ndarray:
+        """Compact coefficients -> the field on the ``N^3`` box (real here; complex for one ``kz``)."""
+        return self.inverse(coeffs)
 
     def forward(self, field: np.ndarray) -> np.ndarray:
         """Real ``(3, N, N, N)`` field -> compact active coefficients ``(3, M)``."""
@@ -128,7 +144,12 @@ class SpectralGrid:
         self._partner = np.array(
             [lookup[(-int(kx[i]), -int(ky[i]), 0)] for i in self.independent[self._plane]], dtype=np.int64
         )
-        khat = self.k[:, self.independent] / np.sqrt(self.k2[self.independent])
+        self._set_transverse_vectors(self.k[:, self.independent])
+        self.dof = 4 * self.independent.size
+
+    def _set_transverse_vectors(self, k: np.ndarray) -> None:
+        """Unit vectors ``e1, e2`` orthogonal to each wavevector (columns of ``k``) and to each other."""
+        khat = k / np.linalg.norm(k, axis=0)
         # e1 = khat x a / |khat x a| with a = z, or x when khat is along z; e2 = khat x e1
         a = np.zeros_like(khat)
         along_z = (khat[0] == 0) & (khat[1] == 0)
@@ -136,9 +157,7 @@ class SpectralGrid:
         a[0] = np.where(along_z, 1.0, 0.0)
         e1 = np.cross(khat.T, a.T).T
         e1 /= np.linalg.norm(e1, axis=0)
-        e2 = np.cross(khat.T, e1.T).T
-        self.e1, self.e2 = e1, e2
-        self.dof = 4 * self.independent.size
+        self.e1, self.e2 = e1, np.cross(khat.T, e1.T).T
 
     def pack(self, coeffs: np.ndarray) -> np.ndarray:
         """Compact solenoidal coefficients -> real vector of transverse amplitudes."""
@@ -170,4 +189,102 @@ class SpectralGrid:
         scale = np.exp(-self.k2[self.independent] / (2 * slope**2))
         vec = rng.standard_normal(4 * m) * np.tile(scale, 4)
         c = self.unpack(vec)
+        return c / np.sqrt(self.energy(c))
+
+
+def check_kz(kz) -> float:
+    """Validate a vertical wavenumber, naming the argument and the fix."""
+    try:
+        value = float(kz)
+    except (TypeError, ValueError):
+        raise FlowkitError(f"`kz` must be a real vertical wavenumber; got {kz!r}") from None
+    if not np.isfinite(value) or value < 0:
+        raise FlowkitError(
+            f"`kz` must be a finite number >= 0; got {kz!r}. The field exp(-i kz z) is the complex "
+            "conjugate of exp(i kz z) and grows at the same rate, so pass |kz|."
+        )
+    return value
+
+
+class VerticalWaveGrid(SpectralGrid):
+    """Fourier grid for fields ``Re[b(x, y) exp(i kz z)]`` of one vertical wavenumber.
+
+    Wavevectors are ``(kx, ky, kz)`` with integer ``|kx|, |ky| <= K`` (2/3 rule on the
+    ``N^2`` grid) and the given real ``kz``; at ``kz = 0`` the mean is excluded. The
+    amplitudes ``b`` are complex with no Hermitian redundancy, so :meth:`pack` gives
+    complex transverse amplitudes and the operator is complex-linear.
+
+    Parameters
+    ----------
+    n : int
+        Grid points per side in ``x`` and ``y``.
+    kz : float
+        Vertical wavenumber (``>= 0``, any real value).
+    workers : int, optional
+        Threads for ``scipy.fft``.
+    """
+
+    def __init__(self, n: int, kz: float, workers: int | None = None):
+        self.n = check_resolution(n)
+        self.workers = int(workers) if workers else default_workers()
+        self.kz = check_kz(kz)
+        self.shape = (self.n, self.n, 1)
+        self.complex_dof = True
+        self.kmax = (self.n - 1) // 3
+        kx = np.fft.fftfreq(self.n, 1.0 / self.n)
+        KX, KY = np.meshgrid(kx, kx, indexing="ij")
+        self.spectral_shape = self.shape
+        keep = (np.abs(KX) <= self.kmax) & (np.abs(KY) <= self.kmax)
+        if self.kz == 0.0:
+            keep &= (KX != 0) | (KY != 0)
+        self.active = np.flatnonzero(keep)
+        kzs = np.full(self.active.size, self.kz)
+        self.k = np.stack([KX.ravel()[self.active], KY.ravel()[self.active], kzs])
+        self.k2 = np.sum(self.k**2, axis=0)
+        self.independent = np.arange(self.active.size)
+        self._set_transverse_vectors(self.k)
+        self.dof = 2 * self.active.size
+        self._full = np.zeros((3, KX.size), dtype=np.complex128)
+
+    def points(self) -> np.ndarray:
+        """Grid points of the ``z = 0`` plane as an ``(N^2, 3)`` array."""
+        x = 2 * np.pi * np.arange(self.n) / self.n
+        X, Y = np.meshgrid(x, x, indexing="ij")
+        return np.stack([X.ravel(), Y.ravel(), np.zeros(X.size)], axis=1)
+
+    def forward(self, field: np.ndarray) -> np.ndarray:
+        """Complex ``(3, N, N, 1)`` amplitude ``b`` -> compact coefficients ``(3, M)``."""
+        hat = scipy.fft.fftn(field, axes=(1, 2), workers=self.workers)
+        return hat.reshape(3, -1)[:, self.active]
+
+    def inverse(self, coeffs: np.ndarray) -> np.ndarray:
+        """Compact coefficients -> complex amplitude ``b`` on the plane, shape ``(3, N, N, 1)``."""
+        self._full[:, self.active] = coeffs
+        full = self._full.reshape((3,) + self.spectral_shape)
+        return scipy.fft.ifftn(full, axes=(1, 2), workers=self.workers)
+
+    def box_field(self, coeffs: np.ndarray) -> np.ndarray:
+        """``b(x, y) exp(i kz z)`` on the ``N^3`` box (complex; the field is its real part)."""
+        z = 2 * np.pi * np.arange(self.n) / self.n
+        return self.inverse(coeffs) * np.exp(1j * self.kz * z)[None, None, None, :]
+
+    def energy(self, coeffs: np.ndarray) -> float:
+        """Mean of ``|b|^2 / 2`` over the plane (Parseval)."""
+        return float(0.5 * np.sum(np.abs(coeffs) ** 2) / float(self.n) ** 4)
+
+    def pack(self, coeffs: np.ndarray) -> np.ndarray:
+        """Compact solenoidal coefficients -> complex vector of transverse amplitudes."""
+        return np.concatenate([np.sum(self.e1 * coeffs, axis=0), np.sum(self.e2 * coeffs, axis=0)])
+
+    def unpack(self, vec: np.ndarray) -> np.ndarray:
+        """Complex vector of transverse amplitudes -> compact coefficients."""
+        m = self.active.size
+        vec = np.asarray(vec, dtype=np.complex128)
+        return self.e1 * vec[:m] + self.e2 * vec[m:]
+
+    def random_field(self, rng: np.random.Generator, slope: float = 2.0) -> np.ndarray:
+        """A random solenoidal amplitude with spectrum ~ exp(-|k|^2 / slope^2), unit energy."""
+        m = self.active.size
+        scale = np.tile(np.exp(-self.k2 / (2 * slope**2)), 2)
+        c = self.unpack((rng.standard_normal(2 * m) + 1j * rng.standard_normal(2 * m)) * scale)
         return c / np.sqrt(self.energy(c))

@@ -88,14 +88,16 @@ def line_stretching(flow: Flow, seed: int, time: float = 10.0, max_points: int =
             "points": int(res.npoints[-1])}
 
 
-def dynamo_growth(flow: Flow, seed: int, rm: float = 10.0, resolution: int = 16, method: str = "eigen") -> dict:
+def dynamo_growth(flow: Flow, seed: int, rm: float = 10.0, resolution: int = 16, method: str = "eigen",
+                  kz: float | None = None) -> dict:
     """Growth rate of the fastest magnetic mode at magnetic Reynolds number ``rm`` (periodic flows).
 
+    ``kz``: one vertical wavenumber (flows independent of ``z``), else the full box.
     stderr: the resolution-convergence estimate (difference to the check resolution).
     """
     from flowkit.dynamo import growth_rate
 
-    res = growth_rate(flow, rm, resolution=resolution, method=method, keep_mode=False, workers=1)
+    res = growth_rate(flow, rm, resolution=resolution, method=method, keep_mode=False, workers=1, kz=kz)
     err = res.error_estimate
     return {"value": float(res.growth_rate), "stderr": None if err != err else float(err),
             "frequency": float(res.frequency), "converged": res.converged}
