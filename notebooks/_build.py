@@ -113,6 +113,21 @@ growth_view = GrowthExplorer("stf", params={"rotation": 0.1}, time=size(20.0, 4.
                              particles=size(1000, 40), preview_particles=size(64, 8), samples=size(60, 12))
 growth_view'''),
     md("""
+## Would the stirring make a dynamo in a liquid metal?
+
+The same explorer idea for the diffusive dynamo in a periodic cell of liquid
+metal stirred in the ABC pattern: move Rm and the parameters; every full result
+adds a point to the growth-rate curve (right), so the onset shows where it
+crosses zero; left is the leading mode at z = 0. For a stirring independent of z
+(the `roberts` and `circular` flows) tick *one vertical wavenumber* to solve a
+single kz, any real value, on a 2-D grid.
+"""),
+    code('''
+from flowkit.lab import DynamoExplorer
+
+dynamo_view = DynamoExplorer("abc", rm=10.0, resolution=size(16, 8), preview_resolution=8)
+dynamo_view'''),
+    md("""
 ## Export for the paper
 
 The same as the buttons: a PDF with rasterized points and vector axes, a PNG, and

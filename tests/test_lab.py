@@ -18,7 +18,7 @@ matplotlib.use("Agg")
 
 import flowkit  # noqa: E402
 from flowkit.errors import FlowkitError  # noqa: E402
-from flowkit.lab import Debouncer, FTLEExplorer, GrowthExplorer, SectionExplorer  # noqa: E402
+from flowkit.lab import Debouncer, DynamoExplorer, FTLEExplorer, GrowthExplorer, SectionExplorer  # noqa: E402
 from flowkit.lab.sections import append_orbits  # noqa: E402
 from flowkit.sections import Plane, Section, poincare_section  # noqa: E402
 
@@ -260,3 +260,44 @@ def test_growth_explorer_time_slider_redraws_curves():
     ex.flush()
     assert ex.mean_line.get_data()[0][-1] == pytest.approx(4.0)
     ex.close()
+
+
+def test_dynamo_explorer_rm_slider_previews_then_adds_the_api_point():
+    from flowkit.dynamo import growth_rate
+
+    ex = DynamoExplorer("abc", rm=6.0, resolution=8, preview_resolution=8)
+    ex.update()
+    ex.rm_slider.value = 12.0  # as the browser does while dragging
+    assert ex.showing == "preview" and ex._full.pending
+    assert ex.flush() and ex.showing == "full"
+    api = growth_rate(flowkit.flow("abc"), 12.0, 8)  # same settings through the API
+    assert ex.result.growth_rate == pytest.approx(api.growth_rate, rel=1e-10)
+    rms, rates = ex.curve_line.get_data()
+    np.testing.assert_array_equal(rms, [6.0, 12.0])
+    assert rates[1] == pytest.approx(api.growth_rate, rel=1e-10)
+    assert tuple(ex.current_point.get_data()[0]) == (12.0,)
+    # the image is |B| of the mode on the plane z = 0, max 1
+    ref = np.linalg.norm(ex.result.mode[0][:, :, :, 0], axis=0).T
+    np.testing.assert_allclose(np.asarray(ex.image.get_array()), ref)
+    assert ex.image.get_array().max() == pytest.approx(1.0, abs=0.05)
+    ex.close()
+
+
+def test_dynamo_explorer_one_vertical_wavenumber_and_exports(tmp_path):
+    from flowkit.dynamo import GrowthResult, growth_rate
+
+    ex = DynamoExplorer("roberts", rm=8.0, resolution=8, kz=0.6)
+    ex.update()
+    assert ex.result.kz == 0.6
+    api = growth_rate(flowkit.flow("roberts"), 8.0, 8, kz=0.6)
+    assert ex.result.growth_rate == pytest.approx(api.growth_rate, rel=1e-10)
+    back = GrowthResult.load(ex.export("npz", tmp_path / "mode.npz"))
+    assert back.kz == 0.6 and back.diagnostics["explored_curve"]["rm"] == [8.0]
+    assert ex.export("pdf", tmp_path / "fig.pdf").stat().st_size > 0
+    ex.flow_picker.value = "abc"  # depends on z: a single kz is not offered
+    assert ex.kz_toggle.disabled and ex.kz is None
+    ex.close()
+    with pytest.raises(FlowkitError, match="`rm`"):
+        DynamoExplorer("abc", rm=0.0)
+    with pytest.raises(FlowkitError, match="`resolution`"):
+        DynamoExplorer("abc", resolution=10)
