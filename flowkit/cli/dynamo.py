@@ -104,8 +104,10 @@ def _num(value, spec: str) -> str:
 
 def human(result: dict) -> str:
     if "rm_critical" in result:
+        kz = result.get("provenance", {}).get("method_settings", {}).get("kz")
         return (f"critical Rm = {result['rm_critical']:.4f} +/- {result['uncertainty']:.2g} "
-                f"(bracket {result['bracket']}, frequency {result['frequency']:.4g}, N = {result['resolution']})")
+                f"(bracket {result['bracket']}, frequency {result['frequency']:.4g}, N = {result['resolution']}"
+                + ("" if kz is None else f", kz = {kz:g}") + ")")
     if "points" in result:
         by_kz = "kz" in result and isinstance(result["kz"], list)
         axis = "kz" if by_kz else "rm"
