@@ -9,6 +9,9 @@ it. Because the file name changes whenever anything in it changes, numba's on-di
 cache can never be stale, and parameters never trigger recompilation (they travel
 as an array).
 
+Templates named in :data:`flowkit.kernels._unroll.GENERATED` are produced as
+text (straight-line code generated from a tableau) instead of read from a file.
+
 Adding a kernel: write a template module here (start it with the stub import line
 marked ``# flowkit:stub``), add its name to :data:`TEMPLATES`, and call its
 functions through ``flow.kernels.<name>``.
@@ -31,6 +34,7 @@ from flowkit._version import __version__
 TEMPLATES: list[str] = [
     "field",
     "steppers",
+    "steppers_unrolled",  # generated text, see flowkit/kernels/_unroll.py
     "batch",
     "splitting",
     "sections",
@@ -69,6 +73,10 @@ def clear_cache() -> int:
 
 
 def _template_text(name: str) -> str:
+    from flowkit.kernels._unroll import GENERATED
+
+    if name in GENERATED:
+        return f"# ---- generated template: {name} ----\n" + GENERATED[name]()
     path = Path(__file__).with_name(f"{name}.py")
     lines = [ln for ln in path.read_text().splitlines() if not ln.rstrip().endswith(_STUB_MARK)]
     return f"# ---- template: {name} ----\n" + "\n".join(lines) + "\n"
