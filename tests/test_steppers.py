@@ -67,31 +67,33 @@ def test_dense_output_matches_exact_solution_inside_a_step(rotation_flow):
         np.testing.assert_allclose(out, ref, atol=1e-12)
 
 
-def test_unrolled_three_component_step_is_bitwise_the_generic_formula():
-    # The unrolled step (generated straight-line code) must give exactly the numbers of the
-    # generic loops: reference = the same sums in the same order, written out here in Python
-    # floats (IEEE double, like the kernel) from the stage rows the generic loop produces.
+@pytest.mark.parametrize("n", [3, 6])
+def test_unrolled_step_is_bitwise_the_generic_formula(n):
+    # The unrolled steps (generated straight-line code for 3 and 6 components) must give
+    # exactly the numbers of the generic loops: reference = the same sums in the same order,
+    # written out here in Python floats (IEEE double, like the kernel) from the stage rows
+    # the generic loop produces.
     flow = flowkit.flow("stf", rotation=0.37)
     k, p = flow.kernels, flow.params
-    y = np.array([0.31, -0.22, 0.45])
+    y = np.array([0.31, -0.22, 0.45, 0.6, -0.8, 0.1])[:n]
     h, rtol, atol = 0.173, 1e-9, 1e-12
-    W = work_array(3)
+    W = work_array(n)
     k.rhs(0.0, y, p, W[0])
-    err = k.dop853_try(0.0, y, h, p, rtol, atol, W)  # 3 components: the unrolled copy
-    R = work_array(3)
+    err = k.dop853_try(0.0, y, h, p, rtol, atol, W)  # 3 or 6 components: the unrolled copy
+    R = work_array(n)
     R[0] = W[0]
     k.dop853_stages(0.0, y, h, p, R, 1, 12)  # the generic stage loop
     np.testing.assert_array_equal(W[1:12], R[1:12])
-    ynew = [y[i] + h * sum_in_order(DOP_B[:12], R[:12, i]) for i in range(3)]
+    ynew = [y[i] + h * sum_in_order(DOP_B[:12], R[:12, i]) for i in range(n)]
     np.testing.assert_array_equal(W[16], ynew)
     k.rhs(h, np.array(ynew), p, R[12])
     np.testing.assert_array_equal(W[12], R[12])
     e5 = e3 = 0.0
-    for i in range(3):
+    for i in range(n):
         sc = atol + rtol * max(abs(y[i]), abs(ynew[i]))
         e5 += (sum_in_order(DOP_E5, R[:13, i]) / sc) ** 2
         e3 += (sum_in_order(DOP_E3, R[:13, i]) / sc) ** 2
-    assert err == abs(h) * e5 / np.sqrt((e5 + 0.01 * e3) * 3)
+    assert err == abs(h) * e5 / np.sqrt((e5 + 0.01 * e3) * n)
 
 
 def sum_in_order(coeffs, values) -> float:
