@@ -75,7 +75,7 @@ def test_unrolled_step_is_bitwise_the_generic_formula(n):
     # the generic loop produces.
     flow = flowkit.flow("stf", rotation=0.37)
     k, p = flow.kernels, flow.params
-    y = np.array([0.31, -0.22, 0.45, 0.6, -0.8, 0.1])[:n]
+    y = np.array([0.31, -0.22, 0.45, 0.6, -0.8, 0.1, 0.2, 0.9, -0.3, -0.5, 0.05, 0.7])[:n]
     h, rtol, atol = 0.173, 1e-9, 1e-12
     W = work_array(n)
     k.rhs(0.0, y, p, W[0])

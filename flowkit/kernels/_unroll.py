@@ -1,7 +1,7 @@
 """Generated kernel text: the DOP853 step attempt unrolled for 3- and 6-component states.
 
 A streamline (position only) is the commonest state: sections, material lines,
-batches of trajectories; a position with one field vector comes next (frozen-in
+batches of trajectories; then a position with one field vector (frozen-in
 fields, per-orbit exponents). For these the generic array loops of
 :func:`dop853_try <flowkit.kernels.steppers>` cost about twice the arithmetic
 itself (loop bookkeeping over 3 components, array views per stage). The text
@@ -18,8 +18,15 @@ from __future__ import annotations
 
 from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5, N_STAGES, W_YNEW
 
-#: local-variable suffixes of the state components: position, then one tangent vector
-_NAMES = ("x", "y", "z", "a", "b", "c")
+#: sizes with an unrolled step: a streamline, and one with a field vector. A 12-component
+#: (tangent basis) copy was measured too: it added 4-8 s to the cold compile of every flow
+#: family (every DOP853 kernel compiles all copies) for a gain on Lyapunov spectra only.
+SIZES = (3, 6)
+
+
+def _names(n: int) -> list[str]:
+    """Local-variable suffixes of the state components: position, then tangent entries."""
+    return ["x", "y", "z"] + [f"v{i}" for i in range(n - 3)]
 
 
 def _sum(coeffs, stage_names: list[str]) -> str:
@@ -31,7 +38,7 @@ def _sum(coeffs, stage_names: list[str]) -> str:
 def _stage(s: int, args: list[str], time: str) -> list[str]:
     """Lines evaluating the right-hand side (as ``rhs`` does) into locals ``k{s}<name>`` and ``W[s]``."""
     n = len(args)
-    names = _NAMES[:n]
+    names = _names(n)
     out = []
     if n == 3:
         out.append(f"    k{s}x, k{s}y, k{s}z = velocity({', '.join(args)}, {time}, p)")
@@ -40,17 +47,19 @@ def _stage(s: int, args: list[str], time: str) -> list[str]:
         out.append(f"    ts = {time}")
         out.append(f"    k{s}x, k{s}y, k{s}z = velocity(q0, q1, q2, ts, p)")
         out.append("    g = gradient(q0, q1, q2, ts, p)")
-        for r, name in enumerate(names[3:]):  # (grad u) v, row by row, as rhs sums it
-            out.append(f"    k{s}{name} = g[{3 * r}] * q3 + g[{3 * r + 1}] * q4 + g[{3 * r + 2}] * q5")
+        for o in range(3, n, 3):  # each tangent vector: (grad u) v, row by row, summed as rhs sums it
+            for r in range(3):
+                out.append(f"    k{s}{names[o + r]} = g[{3 * r}] * q{o} + g[{3 * r + 1}] * q{o + 1} "
+                           f"+ g[{3 * r + 2}] * q{o + 2}")
     out += [f"    W[{s}, {i}] = k{s}{name}" for i, name in enumerate(names)]
     return out
 
 
 def dop853_try_source(n: int) -> str:
-    """Source of ``dop853_try_<n>``: :func:`dop853_try` unrolled for ``y.shape[0] == n`` (3 or 6)."""
-    if n not in (3, 6):
-        raise ValueError("unrolled DOP853 steps exist for 3 (streamline) and 6 (plus one vector) components")
-    names = _NAMES[:n]
+    """Source of ``dop853_try_<n>``: :func:`dop853_try` unrolled for ``y.shape[0] == n`` (one of :data:`SIZES`)."""
+    if n not in SIZES:
+        raise ValueError(f"unrolled DOP853 steps exist for {SIZES} components; got {n}")
+    names = _names(n)
     k = {c: [f"k{s}{c}" for s in range(N_STAGES + 1)] for c in names}
     lines = [
         "@njit(cache=CACHE)",
@@ -82,8 +91,8 @@ def dop853_try_source(n: int) -> str:
 
 
 def unrolled_steps_source() -> str:
-    """The unrolled step attempts for 3 and 6 components."""
-    return dop853_try_source(3) + "\n\n" + dop853_try_source(6)
+    """The unrolled step attempts for every size in :data:`SIZES`."""
+    return "\n\n".join(dop853_try_source(n) for n in SIZES)
 
 
 #: generated templates: name -> function returning the source text

@@ -85,10 +85,11 @@ def dop853_try(t, y, h, p, rtol, atol, W):
     bitwise the same numbers without the loop bookkeeping.
     """
     n = y.shape[0]
+    # the generated functions (noqa F821) are defined by the "steppers_unrolled" template
     if n == 3:
-        return dop853_try_3(t, y, h, p, rtol, atol, W)  # noqa: F821 (generated template)
+        return dop853_try_3(t, y, h, p, rtol, atol, W)  # noqa: F821
     if n == 6:
-        return dop853_try_6(t, y, h, p, rtol, atol, W)  # noqa: F821 (generated template)
+        return dop853_try_6(t, y, h, p, rtol, atol, W)  # noqa: F821
     K = W
     dop853_stages(t, y, h, p, W, 1, 12)
     ynew = W[W_YNEW]
