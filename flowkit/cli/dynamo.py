@@ -111,7 +111,8 @@ def human(result: dict) -> str:
     if "points" in result:
         by_kz = "kz" in result and isinstance(result["kz"], list)
         axis = "kz" if by_kz else "rm"
-        lines = [f"Rm = {result['rm']:g}" if by_kz else "",
+        fixed_kz = result.get("provenance", {}).get("method_settings", {}).get("kz")
+        lines = [f"Rm = {result['rm']:g}" if by_kz else ("" if fixed_kz is None else f"kz = {fixed_kz:g}"),
                  f"{'kz' if by_kz else 'Rm':>10} {'growth rate':>13} {'frequency':>10} "
                  f"{'error':>9} converged"]
         for p in result["points"]:
