@@ -1,8 +1,7 @@
-"""Generated kernel text: the DOP853 step attempt unrolled for 3- and 6-component states.
+"""Generated kernel text: the DOP853 step attempt unrolled for a 3-component state.
 
 A streamline (position only) is the commonest state: sections, material lines,
-batches of trajectories; then a position with one field vector (frozen-in
-fields, per-orbit exponents). For these the generic array loops of
+batches of trajectories. For it the generic array loops of
 :func:`dop853_try <flowkit.kernels.steppers>` cost about twice the arithmetic
 itself (loop bookkeeping over 3 components, array views per stage). The text
 below writes every stage sum out with the tableau coefficients as literals and
@@ -18,10 +17,10 @@ from __future__ import annotations
 
 from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5, N_STAGES, W_YNEW
 
-#: sizes with an unrolled step: a streamline, and one with a field vector. A 12-component
-#: (tangent basis) copy was measured too: it added 4-8 s to the cold compile of every flow
-#: family (every DOP853 kernel compiles all copies) for a gain on Lyapunov spectra only.
-SIZES = (3, 6)
+#: sizes with a generated unrolled step. Only the streamline: a 6-component copy cost 5.7 s
+#: more cold compile of the section explorer (13 inlined copies of the gradient), a
+#: 12-component one 4-8 s more per family; steppers.py has a compact loop for 6 instead.
+SIZES = (3,)
 
 
 def _names(n: int) -> list[str]:
