@@ -175,7 +175,8 @@ def test_roberts_small_rm_growth_matches_second_order_perturbation_theory(kz):
 
 def test_roberts_flow_is_a_dynamo_at_small_rm_for_a_large_enough_scale():
     # Roberts-flow dynamo action at any Rm for long enough vertical scales (Phil. Trans. R. Soc.
-    # A 271, 1972); the limit above puts the edge at kz = Rm^2 / (1 + Rm^2) = 0.138 for Rm = 0.4.
+    # A 271, 411, 1972; a qualitative result, no number from the paper is used); the limit
+    # above puts the edge at kz = Rm^2 / (1 + Rm^2) = 0.138 for Rm = 0.4.
     scan = sweep_kz(flowkit.flow("roberts"), 0.4, [0.05, 0.1, 0.2], resolution=12, progress=False)
     assert scan.growth_rate[0] > 0 and scan.growth_rate[1] > 0 > scan.growth_rate[2]
     assert scan.fastest[0] == 0.05
