@@ -203,6 +203,18 @@ def test_single_kz_mode_is_solenoidal_and_floquet_agrees_with_march():
     np.testing.assert_allclose(whole[..., 5], b * np.exp(1j * 0.57 * 2 * np.pi * 5 / 12), atol=1e-12)
 
 
+def test_time_periodic_box_mode_is_the_best_single_kz_floquet_mode():
+    # exact: a z-independent flow couples no two k_z, so the box's Floquet exponent is the
+    # largest of the single-kz ones at the box's integer k_z (here |k_z| <= 2 at N = 8)
+    f = flowkit.flow("circular")
+    box = growth_rate(f, 5.0, 8, "eigen", check_resolution=None, keep_mode=False)
+    sectors = [growth_rate(f, 5.0, 8, "eigen", kz=kz, check_resolution=None, keep_mode=False)
+               for kz in (0.0, 1.0, 2.0)]
+    best = max(sectors, key=lambda r: r.growth_rate)
+    assert box.growth_rate == pytest.approx(best.growth_rate, abs=1e-9)
+    assert box.frequency == pytest.approx(best.frequency, abs=1e-9)
+
+
 def test_kz_scan_saves_plots_and_bad_kz_is_refused(tmp_path):
     import matplotlib
 

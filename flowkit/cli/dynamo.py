@@ -118,8 +118,9 @@ def human(result: dict) -> str:
         for p in result["points"]:
             lines.append(f"{p[axis]:>10.4g} {_num(p['growth_rate'], '13.6f')} {_num(p['frequency'], '10.5f')} "
                          f"{_num(p['error_estimate'], '9.2g')} {p['converged']}")
-        if result.get("fastest"):
-            lines.append(f"fastest: kz = {result['fastest']['kz']:g}, growth rate {result['fastest']['growth_rate']:.6f}")
+        fastest = result.get("fastest")
+        if fastest:
+            lines.append(f"fastest: kz = {fastest['kz']:g}, growth rate {fastest['growth_rate']:.6f}")
         return "\n".join(line for line in lines if line)
     kz = "" if result.get("kz") is None else f", kz = {result['kz']:g}"
     return (f"growth rate {_num(result['growth_rate'], '.6f')}, frequency {_num(result['frequency'], '.6f')} at "
