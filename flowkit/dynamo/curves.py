@@ -15,14 +15,19 @@ from flowkit.dynamo.spectral import check_kz
 from flowkit.errors import FlowkitError
 
 
-def _rm_values(rms) -> list[float]:
+def _checked_list(values, check, name: str, rule: str, example: str) -> list[float]:
+    """Every entry of ``values`` through ``check``; errors name the list, the rule and an example."""
     try:
-        vals = [check_rm(r) for r in np.atleast_1d(np.asarray(rms, dtype=object)).ravel()]
+        vals = [check(v) for v in np.atleast_1d(np.asarray(values, dtype=object)).ravel()]
     except FlowkitError as exc:
-        raise FlowkitError(f"every value of `rm_list` must be positive: {exc}") from None
+        raise FlowkitError(f"every value of `{name}` must be {rule}: {exc}") from None
     if not vals:
-        raise FlowkitError("`rm_list` is empty; pass e.g. rm_list=[5, 10, 20]")
+        raise FlowkitError(f"`{name}` is empty; pass e.g. {name}={example}")
     return vals
+
+
+def _rm_values(rms) -> list[float]:
+    return _checked_list(rms, check_rm, "rm_list", "positive", "[5, 10, 20]")
 
 
 def _progress(iterable, enabled: bool, desc: str):
@@ -95,12 +100,7 @@ def sweep_kz(flow, rm: float, kz_list, resolution: int = 32, method: str = "eige
     """
     check_periodic(flow)
     rm = check_rm(rm)
-    try:
-        kzs = [check_kz(k) for k in np.atleast_1d(np.asarray(kz_list, dtype=object)).ravel()]
-    except FlowkitError as exc:
-        raise FlowkitError(f"every value of `kz_list` must be a wavenumber >= 0: {exc}") from None
-    if not kzs:
-        raise FlowkitError("`kz_list` is empty; pass e.g. kz_list=[0.25, 0.5, 1.0]")
+    kzs = _checked_list(kz_list, check_kz, "kz_list", "a wavenumber >= 0", "[0.25, 0.5, 1.0]")
 
     def collect(done, settings, seconds):
         return KzScan(kz=np.array([r.kz for r in done]), **_curve_arrays(done), rm=rm,
