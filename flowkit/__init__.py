@@ -10,6 +10,7 @@ from flowkit.flows import Flow, custom_flow, flow, lamb_flow, preset_names, surf
 
 #: Analysis entry points, imported on first use so ``import flowkit`` stays light.
 _LAZY = {
+    "load": "flowkit.results",
     "poincare_section": "flowkit.sections",
     "Plane": "flowkit.sections",
     "Stroboscopic": "flowkit.sections",
