@@ -182,3 +182,17 @@ class Budget:
             return (f"stopped at the time budget max_seconds = {self.max_seconds:g} "
                     f"({self.elapsed():.1f} s); {self.done}{of} {self.unit}s finished and kept")
         return ""
+
+
+def progress_bar(iterable, enabled: bool, unit: str, desc: str | None = None):
+    """``iterable`` wrapped in a tqdm bar (notebooks and terminals) when ``enabled``.
+
+    The simple form for a loop that needs no time budget or interrupt handling
+    (:class:`Budget` does both). The bar goes to stderr and appears only after
+    :data:`DEFAULT_DELAY` seconds.
+    """
+    if not enabled:
+        return iterable
+    from tqdm.auto import tqdm
+
+    return tqdm(iterable, unit=unit, desc=desc, delay=DEFAULT_DELAY, file=sys.stderr)
