@@ -41,6 +41,7 @@ TEMPLATES: list[str] = [
     "lyapunov",
     "ftle",
     "stretching",
+    "returnmap",
 ]
 
 _STUB_MARK = "# flowkit:stub"

@@ -5,4 +5,6 @@ Add a line here for every new :class:`~flowkit.results.Result` subclass.
 
 MODULES: dict[str, str] = {
     "Section": "flowkit.sections.result",
+    "PeriodicOrbit": "flowkit.sections.orbit_results",
+    "OrbitSet": "flowkit.sections.orbit_results",
 }

@@ -1,0 +1,222 @@
+"""Results of the section skeleton: periodic orbits, orbit sets, continuation curves,
+rotation-number profiles and invariant manifolds (the flowkit result protocol)."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from flowkit.results import Result
+
+
+def _prov(rm, **settings) -> dict:
+    prov = rm.flow.provenance()
+    prov.update(return_map=rm.describe(), **settings)
+    return prov
+
+
+@dataclass(eq=False)
+class PeriodicOrbit(Result):
+    """One periodic orbit of a section map (or the record of a Newton run that did not converge).
+
+    Attributes
+    ----------
+    converged : bool
+        Whether |P^k(xi) - xi| <= tol was reached; if not, ``message`` says why and
+        the type fields are empty: an unconverged run is never reported as found.
+    xi : (k, dim)
+        The orbit's points in section coordinates (the first is the periodic point).
+    points : (k, 3)
+        The same points in space.
+    times : (k,)
+        Return time of each step; ``period_time`` is their sum.
+    period : int
+        Number of returns asked for; ``minimal_period`` the least one that closes the orbit.
+    jacobian : (dim, dim)
+        DP^k at the periodic point; ``eigenvalues``/``eigenvectors`` (columns) sorted by modulus.
+    trace, det, residue : float
+        tr DP^k, det DP^k and Greene's residue (2 - tr)/4.
+    type : str
+        "elliptic", "hyperbolic", "parabolic", "attracting", "repelling" ("" if not converged).
+    """
+
+    _ARRAYS = ("xi", "points", "times", "jacobian", "eigenvalues", "eigenvectors", "start", "shift")
+    _DIMS = {"xi": ("point", "coord"), "points": ("point", "xyz"), "times": ("point",)}
+    xi: np.ndarray
+    points: np.ndarray
+    times: np.ndarray
+    jacobian: np.ndarray
+    eigenvalues: np.ndarray
+    eigenvectors: np.ndarray
+    start: np.ndarray
+    shift: np.ndarray
+    period: int
+    minimal_period: int
+    period_time: float
+    trace: float
+    det: float
+    residue: float
+    type: str
+    reflection: bool
+    converged: bool
+    residual: float
+    iterations: int
+    message: str
+    provenance: dict = field(default_factory=dict)
+
+    @classmethod
+    def from_newton(cls, rm, start, run, k: int, parabolic_tol: float = 1e-6, index: int = 0,
+                    prov: dict | None = None) -> "PeriodicOrbit":
+        """Wrap row ``index`` of a Newton run: the orbit, DP^k and its type if it converged."""
+        from flowkit.sections.periodic import CONVERGED, classify, minimal_period, orbit_of
+
+        dim = rm.dim
+        ok = run.status[index] == CONVERGED
+        res = float(run.residual[index])
+        prov = prov if prov is not None else _prov(rm, tol_residual=res)
+        if not ok:
+            why = {"no return": "the start (or every Newton trial) did not return to the section",
+                   "stalled": "Newton stalled: no step lowers the residual",
+                   "iteration budget": "the iteration budget ran out",
+                   "equilibrium": "it reached an equilibrium of the flow on the section (u = 0), not a periodic orbit"}.get(run.status[index], run.status[index])
+            msg = (f"not converged ({why}); residual |P^{k}(xi) - xi| = {res:.3g} after "
+                   f"{int(run.iterations[index])} iterations; try another start, a smaller period or more iterations")
+            nan = np.full((dim, dim), np.nan)
+            return cls(xi=run.xi[index][None], points=rm.embed(run.xi[index][None]), times=np.full(1, np.nan),
+                       jacobian=nan, eigenvalues=np.full(dim, np.nan + 0j), eigenvectors=nan.astype(complex),
+                       start=np.asarray(start, float), shift=np.zeros(3), period=k, minimal_period=0,
+                       period_time=math.nan, trace=math.nan, det=math.nan, residue=math.nan, type="",
+                       reflection=False, converged=False, residual=res, iterations=int(run.iterations[index]),
+                       message=msg, provenance=prov)
+        xi = run.xi[index]
+        if not rm.strobe and np.linalg.norm(rm.flow.velocity(rm.embed(xi[None]))[0]) < 1e-7:
+            run.status[index] = "equilibrium"
+            return cls.from_newton(rm, start, run, k, parabolic_tol, index, prov)
+        xis, pts, times, shift = orbit_of(rm, xi, k)
+        r = rm.apply(xi[None], k)
+        kind = classify(r.jacobian[0], parabolic_tol)
+        close = max(1e-7, 1e3 * res) * (1.0 + float(np.linalg.norm(xi)))
+        mp = minimal_period(np.vstack([xis, r.xi]), k, close)
+        msg = f"converged in {int(run.iterations[index])} iterations; {kind['type']} orbit of period {mp}"
+        return cls(xi=xis, points=pts, times=times, jacobian=r.jacobian[0], eigenvalues=kind["eigenvalues"],
+                   eigenvectors=kind["eigenvectors"], start=np.asarray(start, float), shift=r.shift[0], period=k,
+                   minimal_period=mp, period_time=float(r.time[0]), trace=kind["trace"], det=kind["det"],
+                   residue=kind["residue"], type=kind["type"], reflection=bool(kind["reflection"]),
+                   converged=True, residual=res, iterations=int(run.iterations[index]), message=msg,
+                   provenance=prov)
+
+    def summary(self) -> dict:
+        from flowkit.results import plain
+
+        return plain({
+            "converged": self.converged, "message": self.message, "type": self.type, "period": self.period,
+            "minimal_period": self.minimal_period, "period_time": self.period_time, "point": self.xi[0].tolist(),
+            "point_xyz": self.points[0].tolist(), "trace": self.trace, "det": self.det, "residue": self.residue,
+            "eigenvalues": [[float(e.real), float(e.imag)] for e in self.eigenvalues], "residual": self.residual,
+            "iterations": self.iterations, "winding": self.shift.tolist(),
+        })
+
+    def headline(self):
+        if not self.converged:
+            return [("converged", False, None), ("residual", self.residual, None), ("message", self.message, None)]
+        return [("type", self.type, None), ("period", self.minimal_period, None),
+                ("period_time", self.period_time, None), ("trace", self.trace, None),
+                ("residue", self.residue, None), ("det", self.det, None), ("residual", self.residual, None)]
+
+    @property
+    def unstable_direction(self) -> np.ndarray:
+        """Real unit eigenvector of the largest-modulus eigenvalue (hyperbolic orbits)."""
+        v = np.real(self.eigenvectors[:, 0])
+        return v / np.linalg.norm(v)
+
+    @property
+    def stable_direction(self) -> np.ndarray:
+        v = np.real(self.eigenvectors[:, -1])
+        return v / np.linalg.norm(v)
+
+
+@dataclass(eq=False)
+class OrbitSet(Result):
+    """Periodic orbits found by a scan: one row per orbit, their points flattened.
+
+    Attributes
+    ----------
+    xi, points : (M, dim), (M, 3)
+        Every orbit point; ``orbit`` (M,) says which orbit it belongs to.
+    period, period_time, trace, det, residue, type : per orbit (L,)
+    eigenvalues : (L, dim) complex
+    """
+
+    _ARRAYS = ("xi", "points", "orbit", "period", "period_time", "trace", "det", "residue", "type",
+               "eigenvalues", "eigenvectors")
+    _DIMS = {"xi": ("point", "coord"), "points": ("point", "xyz"), "orbit": ("point",), "period": ("orbits",),
+             "period_time": ("orbits",), "trace": ("orbits",), "det": ("orbits",), "residue": ("orbits",),
+             "type": ("orbits",)}
+    xi: np.ndarray
+    points: np.ndarray
+    orbit: np.ndarray
+    period: np.ndarray
+    period_time: np.ndarray
+    trace: np.ndarray
+    det: np.ndarray
+    residue: np.ndarray
+    type: np.ndarray
+    eigenvalues: np.ndarray
+    eigenvectors: np.ndarray
+    provenance: dict = field(default_factory=dict)
+
+    @classmethod
+    def from_orbits(cls, orbits: list, prov: dict) -> "OrbitSet":
+        dim = orbits[0].xi.shape[1] if orbits else 2
+        cat = (lambda name, shape: np.concatenate([getattr(o, name) for o in orbits]) if orbits
+               else np.zeros(shape))
+        return cls(xi=cat("xi", (0, dim)), points=cat("points", (0, 3)),
+                   orbit=np.repeat(np.arange(len(orbits)), [o.xi.shape[0] for o in orbits]).astype(np.int64),
+                   period=np.array([o.minimal_period for o in orbits], dtype=np.int64),
+                   period_time=np.array([o.period_time for o in orbits], dtype=float),
+                   trace=np.array([o.trace for o in orbits], dtype=float),
+                   det=np.array([o.det for o in orbits], dtype=float),
+                   residue=np.array([o.residue for o in orbits], dtype=float),
+                   type=np.array([o.type for o in orbits], dtype=str) if orbits else np.zeros(0, dtype="<U10"),
+                   eigenvalues=np.array([o.eigenvalues for o in orbits]).reshape(-1, dim).astype(complex),
+                   eigenvectors=np.array([o.eigenvectors for o in orbits]).reshape(-1, dim, dim).astype(complex),
+                   provenance=prov)
+
+    def __len__(self) -> int:
+        return int(self.period.shape[0])
+
+    def counts(self) -> dict:
+        """Number of orbits by (type, period)."""
+        out: dict = {}
+        for t, k in zip(self.type, self.period):
+            key = f"{t} period {int(k)}"
+            out[key] = out.get(key, 0) + 1
+        return out
+
+    def select(self, kind: str | None = None, period: int | None = None) -> np.ndarray:
+        """Indices of orbits of a type and/or period."""
+        m = np.ones(len(self), dtype=bool)
+        if kind is not None:
+            m &= self.type == kind
+        if period is not None:
+            m &= self.period == period
+        return np.flatnonzero(m)
+
+    def orbit_points(self, i: int) -> np.ndarray:
+        return self.xi[self.orbit == i]
+
+    def summary(self) -> dict:
+        from flowkit.results import plain
+
+        return plain({"orbits": len(self), "by_type_and_period": self.counts(),
+                      "orbits_list": [{"type": str(self.type[i]), "period": int(self.period[i]),
+                                       "point": self.orbit_points(i)[0].tolist(),
+                                       "period_time": float(self.period_time[i]), "trace": float(self.trace[i]),
+                                       "residue": float(self.residue[i])} for i in range(len(self))]})
+
+    def headline(self):
+        rows = [("orbits", len(self), None)]
+        rows += [(k, v, None) for k, v in sorted(self.counts().items())]
+        return rows[:8]

@@ -1,0 +1,25 @@
+"""Small real instances of the section-skeleton results (periodic orbits, scans, manifolds, ...)."""
+
+import flowkit
+from flowkit.sections import Plane
+from result_examples import example
+
+_MERIDIAN = Plane((0, 1, 0), 0.0, "+")
+
+
+def _hill():
+    return flowkit.flow("hill", strength=1.0, swirl=1.0)
+
+
+@example("PeriodicOrbit")
+def hill_core_orbit():
+    from flowkit.sections.periodic import find_periodic_orbit
+
+    return find_periodic_orbit(_hill(), (0.69, 0.02), _MERIDIAN)
+
+
+@example("OrbitSet")
+def hill_scan():
+    from flowkit.sections.scan import scan_periodic_orbits
+
+    return scan_periodic_orbits(_hill(), _MERIDIAN, region=(0.6, 0.8, -0.1, 0.1), grid=2, max_period=1)

@@ -1,0 +1,140 @@
+"""Periodic orbits, their types and invariant manifolds of section maps, checked against outside facts."""
+
+import math
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+from scipy.optimize import brentq, root
+
+import flowkit
+from flowkit.errors import FlowkitError
+from flowkit.sections import Plane, Stroboscopic
+from flowkit.sections.periodic import find_periodic_orbit
+from flowkit.sections.returnmap import ReturnMap
+
+LORENZ_Z = Plane((0, 0, 1), 27.0, "+")  # z = rho - 1 crossed upward: one crossing per loop around a wing
+
+
+@pytest.fixture(scope="module")
+def lorenz_ab():
+    return find_periodic_orbit(flowkit.flow("lorenz"), (-13.7, -19.5), LORENZ_Z, period=2)
+
+
+def test_lorenz_shortest_orbit_period(lorenz_ab):
+    # Shortest unstable periodic orbit of Lorenz (10, 28, 8/3), symbol sequence AB: period 1.5586522
+    # (Nonlinearity 16, 2003, 1035; cited from memory). Its two crossings are mirror images (x, y) -> (-x, -y).
+    o = lorenz_ab
+    assert o.converged and o.minimal_period == 2
+    assert abs(o.period_time - 1.5586522) < 1e-7
+    assert np.allclose(o.xi[1], -o.xi[0], atol=1e-8)  # the Lorenz symmetry maps the orbit onto itself
+    assert o.type == "hyperbolic"
+    # mean divergence -(sigma + 1 + beta) (exact): det DP^2 = (n.u(x0)/n.u(x1)) exp(-(41/3) T) and n.u returns
+    assert o.det == pytest.approx(math.exp(-(41.0 / 3.0) * o.period_time), rel=1e-6)
+
+
+def _scipy_lorenz_map(xi, k, z0=27.0):
+    def rhs(t, s):
+        x, y, z = s
+        return [10.0 * (y - x), x * (28.0 - z) - y, x * y - 8.0 / 3.0 * z]
+
+    def ev(t, s):
+        return s[2] - z0
+    ev.direction = 1.0
+    sol = solve_ivp(rhs, (0.0, 2.2), [xi[0], xi[1], z0], method="DOP853", rtol=1e-12, atol=1e-12, events=ev)
+    t_ev = sol.t_events[0]
+    keep = t_ev > 1e-8  # the start itself lies on the plane
+    return sol.y_events[0][keep][k - 1][:2], t_ev[keep][k - 1]
+
+
+def test_newton_agrees_with_scipy_root_on_the_same_return_map(lorenz_ab):
+    # Independent solve: scipy's DOP853 with events at rtol 1e-12 and scipy.optimize.root (finite differences).
+    sol = root(lambda xi: _scipy_lorenz_map(xi, 2)[0] - xi, lorenz_ab.xi[0] + [2e-3, -1e-3], method="hybr",
+               options={"xtol": 1e-13})
+    assert sol.success
+    assert np.allclose(sol.x, lorenz_ab.xi[0], atol=1e-9, rtol=0)
+    assert abs(_scipy_lorenz_map(sol.x, 2)[1] - lorenz_ab.period_time) < 1e-9
+
+
+def test_jacobian_is_the_derivative_of_the_map_and_preserves_flux():
+    # An incompressible steady flow's section map preserves |u.n| dA: det DP = (n.u)(x0) / (n.u)(P x0) (exact).
+    f = flowkit.flow("hill", strength=1.0, swirl=1.0)
+    pl = Plane((1, 1, 0), 0.1, "+")  # an oblique plane off the axis: n.u varies along the orbit
+    rm = ReturnMap(f, pl)
+    xi = np.array([[0.35, 0.2], [-0.3, -0.3], [0.2, 0.55]])
+    r = rm.apply(xi, 1)
+    nu0 = f.velocity(rm.embed(xi)) @ pl.n
+    nu1 = f.velocity(r.points) @ pl.n
+    assert np.allclose(np.linalg.det(r.jacobian), nu0 / nu1, rtol=1e-8)
+    h = 1e-6  # central differences of the map itself
+    for j in range(2):
+        d = np.zeros(2)
+        d[j] = h
+        fd = (rm.apply(xi + d, 1, jacobian=False).xi - rm.apply(xi - d, 1, jacobian=False).xi) / (2 * h)
+        assert np.allclose(fd, r.jacobian[:, :, j], atol=1e-6 * np.abs(r.jacobian).max())
+
+
+def _tmp(name):
+    import tempfile
+    from pathlib import Path
+
+    return Path(tempfile.mkdtemp()) / name
+
+
+# Hill's spherical vortex with swirl: psi = (U/2) s^2 (1 - r^2) is conserved, the swirl turns every meridian
+# plane rigidly (return time 2 pi / Omega exactly), and the core circle s^2 = 1/2, z = 0 is a periodic orbit
+# whose poloidal linearization is a rotation at rate sqrt(2) U (exact, from the stream function).
+U_HILL, OMEGA = 1.0, 1.0
+
+
+def _psi(x, z):
+    return 0.5 * U_HILL * x**2 * (1 - x**2 - z**2)
+
+
+def _poloidal_period(s0):
+    """Period of the meridional orbit through (s0, 0), from the stream function alone (scipy)."""
+    def rhs(t, q):
+        s, z = q
+        return [U_HILL * s * z, U_HILL * (1 - 2 * s * s - z * z)]
+
+    def ev(t, q):
+        return q[1]
+    ev.direction = 1.0 if s0 < math.sqrt(0.5) else -1.0
+    sol = solve_ivp(rhs, (0, 60), [s0, 0.0], method="DOP853", rtol=1e-12, atol=1e-12, events=ev)
+    return [t for t in sol.t_events[0] if t > 1e-6][0]
+
+
+def test_integrable_hill_vortex_core_is_elliptic_and_resonant_torus_parabolic():
+    f = flowkit.flow("hill", strength=U_HILL, swirl=OMEGA)
+    pl = Plane((0, 1, 0), 0.0, "+")  # in-plane (x, -z)
+    core = find_periodic_orbit(f, (0.69, 0.02), pl)
+    assert core.converged and core.type == "elliptic" and abs(core.det - 1.0) < 1e-9
+    assert np.allclose(core.xi[0], [math.sqrt(0.5), 0.0], atol=1e-8)
+    assert core.period_time == pytest.approx(2 * math.pi / OMEGA, rel=1e-10)
+    assert core.trace == pytest.approx(2 * math.cos(math.sqrt(2) * U_HILL * 2 * math.pi / OMEGA), abs=1e-8)
+    # resonant torus: poloidal period = return time 2 pi / Omega (found with scipy from psi alone)
+    s_res = brentq(lambda s: _poloidal_period(s) - 2 * math.pi / OMEGA, 0.72, 0.99, xtol=1e-13)
+    torus = find_periodic_orbit(f, (s_res + 0.01, 0.0), pl)
+    assert torus.converged and torus.type == "parabolic"
+    back = flowkit.load(torus.save(_tmp("orbit.json")))
+    assert back.period_time == torus.period_time and np.array_equal(back.xi, torus.xi)
+    assert abs(torus.trace - 2.0) < 1e-6 and abs(torus.det - 1.0) < 1e-9
+    x, mz = torus.xi[0]
+    assert _psi(x, -mz) == pytest.approx(_psi(s_res, 0.0), rel=1e-7)  # on the known invariant surface
+
+
+def test_bad_input_and_failures_are_clear():
+    f = flowkit.flow("hill", strength=1.0, swirl=1.0)
+    pl = Plane((0, 1, 0), 0.0, "+")
+    with pytest.raises(FlowkitError, match="outside the domain"):
+        find_periodic_orbit(f, (1.2, 0.3), pl)
+    with pytest.raises(FlowkitError, match="period"):
+        find_periodic_orbit(f, (0.7, 0.0), pl, period=0)
+    with pytest.raises(FlowkitError, match="Stroboscopic"):
+        ReturnMap(flowkit.flow("double-gyre"), Plane((1, 0, 0), 1.0))
+    lost = find_periodic_orbit(f, (0.9, 0.3), pl, period=3, max_iter=1)
+    assert not lost.converged and lost.type == "" and "residual" in lost.message
+    assert lost.summary()["converged"] is False
+    # no swirl: nothing crosses the meridian plane y = 0, so there is no return
+    none = find_periodic_orbit(flowkit.flow("hill", swirl=0.0), (0.5, 0.1), pl, max_time=5.0)
+    assert not none.converged and "did not return" in none.message
