@@ -1,0 +1,257 @@
+"""Topology of curves: writhe, twist, linking (each check names its outside reference)."""
+
+import math
+
+import numpy as np
+import pytest
+import scipy.integrate
+import scipy.optimize
+import scipy.special
+import sympy as sp
+
+import naive_topology as naive
+from flowkit import topology as T
+from flowkit.errors import FlowkitError
+from flowkit.topology import _kernels as K
+
+
+# -- curves used throughout ------------------------------------------------------------------
+def circle(center=(0, 0, 0), r=1.0, e1=(1, 0, 0), e2=(0, 1, 0)):
+    c, a, b = (np.asarray(v, dtype=float) for v in (center, e1, e2))
+    return lambda t: c + r * (np.cos(2 * np.pi * t)[:, None] * a + np.sin(2 * np.pi * t)[:, None] * b)
+
+
+def torus_knot(p, q, R=1.0, r=0.1):
+    """Winds p times around the torus' symmetry axis (along the core) and q times around the tube."""
+    def f(t):
+        t = 2 * np.pi * np.asarray(t)
+        rho = R + r * np.cos(q * t)
+        return np.stack([rho * np.cos(p * t), rho * np.sin(p * t), r * np.sin(q * t)], axis=1)
+    return f
+
+
+def random_curve(rng, modes=4, scale=1.0):
+    A = scale * rng.normal(size=(modes, 3, 2)) / np.arange(1, modes + 1)[:, None, None]
+
+    def f(t):
+        t = np.asarray(t)
+        out = np.zeros((len(t), 3))
+        for m in range(modes):
+            a = 2 * np.pi * (m + 1) * t
+            out += np.cos(a)[:, None] * A[m, :, 0] + np.sin(a)[:, None] * A[m, :, 1]
+        return out
+    return f
+
+
+# -- kernels against the numpy reference and against each other -------------------------------
+def test_kernels_match_the_numpy_reference_and_do_not_depend_on_threads():
+    """Same formula (Biopolymers 54, 2000, 307) written with numpy over all pairs."""
+    rng = np.random.default_rng(3)
+    P = random_curve(rng)(np.arange(90) / 90) + 1e-3 * rng.normal(size=(90, 3))
+    Q = random_curve(rng)(np.arange(70) / 70) + (3.0, 0, 0)
+    wr1, *_ = T.writhe.__globals__["writhe_sum"](P, threads=1)
+    wr2, *_ = T.writhe.__globals__["writhe_sum"](P, threads=2)
+    assert wr1 == wr2
+    assert wr1 == pytest.approx(naive.writhe_naive(P), abs=1e-12)
+    from flowkit.topology.writhe import linking_sum
+    lk1, lk2 = linking_sum(P, Q, threads=1)[0], linking_sum(P, Q, threads=2)[0]
+    assert lk1 == lk2 and lk1 == pytest.approx(naive.linking_naive(P, Q), abs=1e-12)
+
+
+def test_linking_matches_gauss_quadrature_of_smooth_curves():
+    """Independent route: trapezoidal rule on the Gauss linking integral (no solid angles).
+
+    The core circle of a torus links a (p, q) torus knot q times (it winds q times
+    around the tube): Lk = +-q, an integer (common practice, no source).
+    """
+    knot, core = torus_knot(2, 3, r=0.4), circle()
+    lk = T.linking_number(knot, core, n=800)
+    assert abs(abs(lk.linking) - 3) < 1e-9 and lk.defect < 1e-9
+    assert lk.linking == pytest.approx(naive.gauss_quadrature(knot, core, 600), abs=1e-6)
+
+
+def test_segment_distance_against_a_brute_force_grid():
+    rng = np.random.default_rng(5)
+    for _ in range(20):
+        p = rng.normal(size=(4, 3))
+        exact = K.segment_distance(p[0], p[1], p[2], p[3])
+        grid = naive.segment_distance_grid(*p)
+        assert exact <= grid + 1e-12 and grid - exact < 1e-5
+
+
+# -- writhe -------------------------------------------------------------------------------------
+def test_planar_curves_have_zero_writhe():
+    """A planar curve has Wr = 0: every pair of segments is coplanar (exact identity)."""
+    rng = np.random.default_rng(0)
+    th = 2 * np.pi * np.arange(200) / 200
+    rad = 1 + 0.3 * np.cos(3 * th) + 0.2 * np.sin(5 * th + 1)  # star-shaped: no self-crossing
+    P = np.stack([rad * np.cos(th), rad * np.sin(th), 0 * th], 1)
+    assert T.writhe(P).writhe == 0.0
+    Rm = np.linalg.qr(rng.normal(size=(3, 3)))[0]  # the same curve in a tilted plane: round-off only
+    assert abs(T.writhe(P @ Rm.T).writhe) < 1e-12
+
+
+@pytest.mark.parametrize("p, q", [(2, 3), (3, 2)])
+def test_torus_knot_writhe_and_its_thin_torus_limit(p, q):
+    """(p, q) torus knot x(t) = ((R + r cos qt) cos pt, (R + r cos qt) sin pt, r sin qt).
+
+    Derivation (ours). Take as ribbon normal N the unit vector from the tube's core
+    to the curve, cos(qt) e_rho + sin(qt) e_z; it is perpendicular to the tangent and
+    its edge x + eps N is the same knot on the torus of tube radius r + eps, so the
+    ribbon's linking number is the torus-surface framing, Lk = -pq for this
+    orientation (two parallel (p, q) curves on nested tori link pq times; common
+    practice, no source). With e_phi the core direction and M = -sin(qt) e_rho +
+    cos(qt) e_z, x' = r q M + rho p e_phi, N' = q M + p cos(qt) e_phi and
+    (T x N) . N' dt = -pqR / |x'| dt, so
+
+        Tw = -(1/2 pi) int_0^2pi pqR / sqrt(r^2 q^2 + p^2 (R + r cos qt)^2) dt
+           = -q [1 + (r/R)^2 (1 - q^2/p^2) / 2 + O((r/R)^4)].
+
+    Călugăreanu–White gives Wr = Lk - Tw exactly, hence |Wr| -> q (p - 1) as r/R -> 0
+    (q counts the turns around the tube, p those around the core), with the error
+    q (r/R)^2 (q^2/p^2 - 1) / 2: it falls like (r/R)^2. Checked: the polygon writhe
+    against -pq - Tw with Tw by scipy quadrature, and the (r/R)^2 coefficient.
+    """
+    def twist_exact(eps):
+        g = lambda t: p * q / math.sqrt(eps ** 2 * q ** 2 + p ** 2 * (1 + eps * math.cos(q * t)) ** 2)  # noqa: E731
+        return -scipy.integrate.quad(g, 0, 2 * math.pi, limit=200, epsabs=1e-13)[0] / (2 * math.pi)
+
+    coef = []
+    for eps in (0.1, 0.05):
+        w = T.writhe(torus_knot(p, q, 1.0, eps), n=3000)
+        assert w.writhe == pytest.approx(-p * q - twist_exact(eps), abs=max(5 * w.error, 1e-7))
+        coef.append((abs(w.writhe) - q * (p - 1)) / eps ** 2)
+    predicted = q * ((q / p) ** 2 - 1) / 2
+    assert coef[1] == pytest.approx(predicted, rel=0.01)
+    assert abs(coef[0] - predicted) > abs(coef[1] - predicted)  # the O((r/R)^4) remainder shrinks
+
+
+def test_writhe_error_estimate_bounds_the_true_error():
+    """Error from half the samples against the exact value -pq - Tw (as above)."""
+    eps = 0.3
+    g = lambda t: 6 / math.sqrt(eps ** 2 * 9 + 4 * (1 + eps * math.cos(3 * t)) ** 2)  # noqa: E731
+    exact = -6 + scipy.integrate.quad(g, 0, 2 * math.pi, epsabs=1e-13)[0] / (2 * math.pi)
+    w = T.writhe(torus_knot(2, 3, 1.0, eps), n=160)
+    assert abs(w.writhe - exact) < 3 * w.error and w.error < 1e-2
+
+
+# -- linking -------------------------------------------------------------------------------------
+def test_hopf_link_and_unlinked_circles():
+    """Two unit circles through each other's centres link once (Hopf link); apart they do not (exact)."""
+    a = circle()
+    b = circle((1, 0, 0), 1, (1, 0, 0), (0, 0, 1))
+    assert abs(abs(T.linking_number(a, b, n=100).linking) - 1) < 1e-12
+    assert T.linking_number(a, b, n=100).integer == -T.linking_number(b, circle(e1=(0, 1, 0), e2=(1, 0, 0)),
+                                                                      n=100).integer
+    assert abs(T.linking_number(a, circle((3, 0, 0), 1, (1, 0, 0), (0, 0, 1)), n=100).linking) < 1e-12
+
+
+# -- ribbons -------------------------------------------------------------------------------------
+@pytest.mark.parametrize("k", [1, 3])
+def test_circle_ribbon_turning_k_times_has_twist_k(k):
+    """N = cos(kt) e_rho - sin(kt) e_z turns k times positively about T = e_phi: Tw = k, Wr = 0 (exact)."""
+    def normal(t):
+        a = 2 * np.pi * np.asarray(t)
+        er = np.stack([np.cos(a), np.sin(a), 0 * a], 1)
+        return np.cos(k * a)[:, None] * er - np.sin(k * a)[:, None] * np.array([0, 0, 1.0])
+
+    r = T.ribbon_topology(T.ribbon(circle(), normal, n=96))
+    assert r.twist == pytest.approx(k, abs=1e-12) and r.writhe == 0.0
+    assert r.twist_smooth == pytest.approx(k, abs=1e-12)
+    assert r.linking_integer == k and abs(r.defect) < 1e-10
+
+
+def test_calugareanu_white_on_random_smooth_ribbons():
+    """Lk(x, x + eps N) = Tw + Wr (Rev. Math. Pures Appl. 4, 1959, 5; Amer. J. Math. 91, 1969, 693;
+    cited from memory), to the round-off of the solid-angle sums; the polygon twist equals an
+    independent loop implementation, and the smooth (FFT) twist agrees within the error estimate."""
+    rng = np.random.default_rng(11)
+    for _ in range(4):
+        f, g = random_curve(rng), random_curve(rng)
+        rb = T.ribbon(f, g, n=500)
+        r = T.ribbon_topology(rb)
+        assert abs(r.defect) < 1e-8 and abs(r.linking - r.linking_integer) < 1e-8
+        assert r.twist == pytest.approx(naive.twist_turns(rb.points, rb.normals), abs=1e-12)
+        assert abs(r.twist_smooth - r.twist) < 10 * r.twist_error + 1e-9
+
+
+# -- smooth geometry -----------------------------------------------------------------------------
+def test_geometry_of_an_ellipse_and_a_circle():
+    """Ellipse perimeter 4a E(1 - b^2/a^2) (scipy.special.ellipe); circle curvature 1/R, torsion 0."""
+    a, b = 2.0, 0.7
+    g = T.curve_geometry(lambda t: np.stack([a * np.cos(2 * np.pi * t), b * np.sin(2 * np.pi * t), 0 * t], 1), 128)
+    assert g.length == pytest.approx(4 * a * scipy.special.ellipe(1 - b ** 2 / a ** 2), rel=1e-12)
+    assert g.total_curvature == pytest.approx(2 * np.pi, rel=1e-12)  # a convex plane curve turns once
+    c = T.curve_geometry(circle(r=3.0), 64)
+    assert np.allclose(c.curvature, 1 / 3.0, atol=1e-13) and np.allclose(c.torsion, 0, atol=1e-12)
+
+
+def test_torsion_of_a_torus_knot_against_sympy():
+    """Curvature and torsion from the symbolic derivatives (sympy) at the sample points."""
+    t = sp.symbols("t")
+    p, q, R, r = 2, 3, 1, sp.Rational(2, 5)
+    X = sp.Matrix([(R + r * sp.cos(q * t)) * sp.cos(p * t), (R + r * sp.cos(q * t)) * sp.sin(p * t),
+                   r * sp.sin(q * t)])
+    d1, d2, d3 = X.diff(t), X.diff(t, 2), X.diff(t, 3)
+    c = d1.cross(d2)
+    kappa = sp.lambdify(t, sp.sqrt(c.dot(c)) / sp.sqrt(d1.dot(d1)) ** 3)
+    tau = sp.lambdify(t, c.dot(d3) / c.dot(c))
+    n = 256
+    g = T.curve_geometry(torus_knot(2, 3, 1.0, 0.4), n)
+    ts = 2 * np.pi * np.arange(n) / n
+    assert np.allclose(g.curvature, kappa(ts), rtol=1e-9)
+    assert np.allclose(g.torsion, tau(ts), rtol=1e-8, atol=1e-9)
+    assert g.total_curvature > 4 * np.pi  # a knot: total curvature above 4 pi (Ann. of Math. 52, 1950, 248)
+
+
+def test_total_torsion_of_a_curve_on_a_sphere_vanishes():
+    """oint tau ds = 0 for every closed curve on a sphere (common practice, no source)."""
+    rng = np.random.default_rng(2)
+    f = random_curve(rng, modes=3)
+    g = T.curve_geometry(lambda t: f(t) / np.linalg.norm(f(t), axis=1)[:, None], 1024)
+    assert abs(g.total_torsion) < 1e-8 and g.spectral_tail < 1e-20
+
+
+def test_inflection_points_of_a_planar_rose():
+    """r(theta) = 1 + a cos 3 theta: inflections where r^2 + 2 r'^2 - r r'' = 0 (polar signed curvature),
+    located with scipy's brentq, against the curvature minima found spectrally."""
+    a = 0.3
+
+    def f(t):
+        th = 2 * np.pi * np.asarray(t)
+        r = 1 + a * np.cos(3 * th)
+        return np.stack([r * np.cos(th), r * np.sin(th), 0 * th], 1)
+
+    num = lambda th: ((1 + a * np.cos(3 * th)) ** 2 + 2 * (3 * a * np.sin(3 * th)) ** 2  # noqa: E731
+                      + (1 + a * np.cos(3 * th)) * 9 * a * np.cos(3 * th))
+    grid = np.linspace(0, 2 * np.pi, 2001)
+    roots = [scipy.optimize.brentq(num, x0, x1) / (2 * np.pi) for x0, x1 in zip(grid[:-1], grid[1:])
+             if num(x0) * num(x1) < 0]
+    assert len(roots) == 6
+    g = T.curve_geometry(f, 2048, inflection_tol=1e-2)
+    assert len(g.inflections) == 6
+    assert np.allclose(np.sort(g.inflections), np.sort(roots), atol=2e-4)
+
+
+# -- bad input --------------------------------------------------------------------------------------
+def test_bad_curves_are_refused_with_clear_errors():
+    arc = circle()(np.linspace(0, 0.5, 50))
+    with pytest.raises(FlowkitError, match="does not look closed"):
+        T.writhe(arc)
+    with pytest.raises(FlowkitError, match="not closed"):
+        T.writhe(lambda t: np.stack([t, t ** 2, 0 * t], 1))
+    P = circle()(np.arange(20) / 20)
+    with pytest.raises(FlowkitError, match="points 3 and 4 coincide"):
+        T.writhe(np.insert(P, 4, P[3], axis=0))
+    eight = lambda t: np.stack([np.sin(4 * np.pi * t), np.sin(2 * np.pi * t), 0 * t], 1)  # noqa: E731
+    with pytest.raises(FlowkitError, match=r"crosses itself.*near \[-?0\.0, -?0\.0, 0\.0\]"):
+        T.writhe(eight, n=64)
+    with pytest.raises(FlowkitError, match="touch"):
+        T.linking_number(circle(), circle((2, 0, 0)), n=64)
+    with pytest.raises(FlowkitError, match="touch"):
+        T.linking_number(circle(), circle(), n=64)
+    tangent = lambda t: np.stack([-np.sin(2 * np.pi * t), np.cos(2 * np.pi * t), 0 * t], 1)  # noqa: E731
+    with pytest.raises(FlowkitError, match="normal at point 0 .* parallel to the curve's tangent"):
+        T.ribbon(circle(), tangent, n=32)
+    with pytest.raises(FlowkitError, match="exactly one of"):
+        T.ribbon(circle())
