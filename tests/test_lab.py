@@ -23,6 +23,9 @@ from flowkit.lab.sections import append_orbits  # noqa: E402
 from flowkit.sections import Plane, Section, poincare_section  # noqa: E402
 
 SMALL = dict(n_seeds=4, crossings=40, preview_crossings=8)
+#: The explorer's default section of the ball, built independently: the plane y = 0 seen in (x, z)
+#: (normal -y, first axis x: e2 = n x e1 = z), every crossing kept.
+XZ = Plane((0, -1, 0), 0.0, "both", axis1=(1, 0, 0))
 
 
 def click(explorer, u, v, button=1):
@@ -39,10 +42,10 @@ def explorer():
 
 
 def test_full_section_on_artists_equals_api_result(explorer):
-    ref = poincare_section(flowkit.flow("stf", rotation=0.3), explorer.seeds, Plane((0, 1, 0), 0.0, "+"),
+    ref = poincare_section(flowkit.flow("stf", rotation=0.3), explorer.seeds, XZ,
                            crossings=40)
     np.testing.assert_array_equal(explorer.scatter.get_offsets(), ref.display_coords())
-    np.testing.assert_array_equal(explorer.scatter.get_array(), ref.orbit % 20)
+    np.testing.assert_array_equal(explorer.scatter.get_array(), ref.orbit % 32)
     assert explorer.showing == "full"
     # every crossing lies on the plane y = 0 (exact geometric identity, to the crossing tolerance)
     assert np.max(np.abs(explorer.result.points[:, 1])) < 1e-9
@@ -61,7 +64,7 @@ def test_slider_change_previews_then_full_section_on_release(explorer):
     assert explorer.showing == "full" and full.shape == (4 * 40, 2)
     assert not np.allclose(full[:32], before[:32])  # the data on the artist changed with the parameter
     assert explorer.result.provenance["parameters"] == {"rotation": 0.55}
-    ref = poincare_section(flowkit.flow("stf", rotation=0.55), explorer.seeds, Plane((0, 1, 0), 0.0, "+"),
+    ref = poincare_section(flowkit.flow("stf", rotation=0.55), explorer.seeds, XZ,
                            crossings=40)
     np.testing.assert_array_equal(full, ref.display_coords())
 
@@ -74,10 +77,10 @@ def test_click_adds_an_orbit_seeded_on_the_plane(explorer):
     assert sec.n_orbits == n0 + 1
     assert len(explorer.scatter.get_offsets()) == m0 + sec.counts[-1] > m0
     seed = sec.seeds[-1]
-    # in-plane coordinates (u, v) = (x, -z) on y = 0 (basis of flowkit.sections.geometry)
-    np.testing.assert_allclose(seed, [0.3, 0.0, 0.2], atol=1e-15)
-    np.testing.assert_allclose(Plane((0, 1, 0), 0.0).coords(seed[None])[0], [0.3, -0.2], atol=1e-15)
-    ref = poincare_section(explorer.flow, seed[None], Plane((0, 1, 0), 0.0, "+"), crossings=40)
+    # in-plane coordinates (u, v) = (x, z) on y = 0: the click lands where it was made
+    np.testing.assert_allclose(seed, [0.3, 0.0, -0.2], atol=1e-15)
+    np.testing.assert_allclose(XZ.coords(seed[None])[0], [0.3, -0.2], atol=1e-15)
+    ref = poincare_section(explorer.flow, seed[None], XZ, crossings=40)
     np.testing.assert_array_equal(sec.points[sec.orbit == n0], ref.points)
 
 
@@ -141,7 +144,7 @@ def test_colour_by_chaos_uses_the_indicator_per_orbit():
     assert ex.colorbar.ax.get_visible()
     ex.color_picker.value = "orbit"
     assert not ex.colorbar.ax.get_visible()
-    np.testing.assert_array_equal(ex.scatter.get_array(), ex.result.orbit % 20)
+    np.testing.assert_array_equal(ex.scatter.get_array(), ex.result.orbit % 32)
     ex.close()
 
 
@@ -178,7 +181,7 @@ def test_picking_another_flow_rebuilds_sliders_and_frame():
 
 
 def test_append_orbits_matches_one_batch(explorer):
-    f, plane = flowkit.flow("stf", rotation=0.3), Plane((0, 1, 0), 0.0, "+")
+    f, plane = flowkit.flow("stf", rotation=0.3), XZ
     seeds = explorer.seeds[:3]
     whole = poincare_section(f, seeds, plane, crossings=20)
     parts = append_orbits(poincare_section(f, seeds[:2], plane, crossings=20),
@@ -232,7 +235,7 @@ def test_debouncer_on_a_loop_coalesces_bursts():
 
 # -- FTLE and growth explorers ------------------------------------------------------------------
 def test_ftle_explorer_slider_changes_image_and_matches_api():
-    from flowkit.ftle import GridPlane, ftle_field
+    from flowkit.chaos import GridPlane, ftle_field
 
     ex = FTLEExplorer("stf", params={"rotation": 0.3}, resolution=12, preview_resolution=6, time=1.0)
     ex.update()
@@ -248,7 +251,7 @@ def test_ftle_explorer_slider_changes_image_and_matches_api():
 
 
 def test_growth_explorer_time_slider_redraws_curves():
-    from flowkit.stretching import stretch
+    from flowkit.fields import stretch
 
     ex = GrowthExplorer("stf", params={"rotation": 0.3}, time=2.0, particles=24, preview_particles=8, samples=8)
     ex.update()

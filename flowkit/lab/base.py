@@ -265,7 +265,8 @@ class Explorer:
         The layout engine costs about as much as drawing 10,000 points; a slider
         move changes data, not the frame, so the frame is laid out once.
         """
-        key = tuple((ax.get_visible(), ax.get_xlabel(), ax.get_ylabel()) for ax in self.fig.axes)
+        axes = [*self.fig.axes, *(child for ax in self.fig.axes for child in ax.child_axes)]  # insets too
+        key = tuple((ax.get_visible(), ax.get_xlabel(), ax.get_ylabel()) for ax in axes)
         if key == self._layout_key:
             return
         self.fig.set_layout_engine("constrained")

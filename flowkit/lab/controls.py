@@ -139,26 +139,68 @@ class Debouncer:
         self.fn(*self._args)
 
 
-class PlaneControls:
-    """A normal picker (x, y, z) and an offset slider whose range follows the flow's domain."""
+#: Crossing directions offered by the section explorer: (label on the button, Plane direction).
+DIRECTION_CHOICES = (("+", "+"), ("−", "-"), ("both", "both"))
+#: Default crossing direction of every section a user draws (explorer, CLI, headless figure):
+#: all crossings, so the whole trace of each orbit shows and a clicked seed appears where it was clicked.
+DEFAULT_DIRECTION = "both"
+#: In-plane axes (horizontal, vertical) of the coordinate planes: the other two coordinates in order.
+PLANE_AXES = {"x": ("y", "z"), "y": ("x", "z"), "z": ("x", "y")}
 
-    def __init__(self):
+
+def coordinate_plane(axis: str, offset: float = 0.0, direction: str = DEFAULT_DIRECTION):
+    """The plane ``axis = offset`` with in-plane coordinates named by the other two coordinates.
+
+    ``x = c`` gives (y, z), ``y = c`` gives (x, z), ``z = c`` gives (x, y), each increasing to
+    the right and upwards. ``direction`` refers to the coordinate ``axis`` itself: ``"+"`` keeps
+    crossings where it increases. For ``y`` the plane is stored with normal -y (so that x, z is
+    a right-handed in-plane basis), its offset and direction flipped to match.
+    """
+    from flowkit.sections import Plane
+
+    if axis not in PLANE_AXES:
+        raise FlowkitError(f"`axis` must be 'x', 'y' or 'z'; got {axis!r}")
+    if axis == "y":
+        flipped = {"+": "-", "-": "+", "both": "both"}[direction]
+        return Plane((0.0, -1.0, 0.0), -float(offset), flipped, axis1=(1.0, 0.0, 0.0))
+    return Plane(tuple(float(a == axis) for a in "xyz"), float(offset), direction)
+
+
+def direction_text(axis: str, direction: str) -> str:
+    """What a crossing direction keeps, in words, e.g. 'crossings: both directions'."""
+    if direction == "both":
+        return "crossings: both directions"
+    return f"crossings: {axis} {'increasing' if direction == '+' else 'decreasing'} ({direction})"
+
+
+class PlaneControls:
+    """A normal picker (x, y, z), an offset slider whose range follows the flow's domain and,
+    with ``direction=True``, a crossing-direction picker (+, −, both)."""
+
+    def __init__(self, direction: bool = False):
         import ipywidgets as w
 
-        self.normal = w.ToggleButtons(options=["x", "y", "z"], description="normal", style={"button_width": "40px"})
+        self.normal = w.ToggleButtons(options=["x", "y", "z"], description="normal", style={"button_width": "40px"},
+                                      tooltips=["plane x = offset", "plane y = offset", "plane z = offset"])
         self.offset = w.FloatSlider(description="offset", continuous_update=True, readout_format=".3f",
                                     layout=w.Layout(width="95%"))
+        self.direction = None
+        if direction:
+            self.direction = w.ToggleButtons(
+                options=list(DIRECTION_CHOICES), value=DEFAULT_DIRECTION, description="crossings",
+                tooltips=["only where the normal coordinate increases", "only where it decreases",
+                          "every crossing (default)"], style={"button_width": "48px"})
 
     @property
     def widgets(self) -> list:
-        return [self.normal, self.offset]
+        return [self.normal, self.offset] + ([self.direction] if self.direction is not None else [])
 
     def observe(self, handler: Callable) -> None:
-        self.normal.observe(handler, names="value")
-        self.offset.observe(handler, names="value")
+        for widget in self.widgets:
+            widget.observe(handler, names="value")
 
-    def reset(self, flow, normal: str | None, offset: float) -> None:
-        """Fit the offset range to ``flow``'s domain, then set ``normal``.
+    def reset(self, flow, normal: str | None, offset: float, direction: str | None = None) -> None:
+        """Fit the offset range to ``flow``'s domain, then set ``normal`` (and ``direction``).
 
         Default normal: :data:`DEFAULT_NORMALS` for the presets listed there, else
         y in the unit ball and z in the periodic box.
@@ -175,3 +217,5 @@ class PlaneControls:
             s.value = min(max(float(offset), lo), hi)
             s.min, s.max, s.step = lo, hi, (hi - lo) / 200
         self.normal.value = normal or DEFAULT_NORMALS.get(flow.name) or ("y" if flow.domain == "ball" else "z")
+        if self.direction is not None:
+            self.direction.value = direction or DEFAULT_DIRECTION

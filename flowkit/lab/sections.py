@@ -11,6 +11,14 @@ chooses budgets, keeps the orbits and updates one scatter artist.
 Seeds by clicking: a click at in-plane coordinates (u, v) is the 3-D point
 ``plane.point(u, v)`` on the section plane (for a stroboscopic section, on its
 view plane); its orbit is integrated with the full budget and appended.
+
+Crossing direction: the explorer keeps every crossing by default ("both", the
+same default as ``flowkit section`` and ``bash run.sh headless``), so the whole
+trace of each orbit shows and a clicked seed's orbit shows up where it was
+clicked; "+" or "−" keeps one side only (a one-sided return map, what
+periodic-orbit and area-preservation arguments need). The figure states which.
+The plane ``y = c`` is drawn in (x, z), ``x = c`` in (y, z), ``z = c`` in (x, y)
+(:func:`flowkit.lab.controls.coordinate_plane`).
 """
 
 from __future__ import annotations
@@ -22,13 +30,14 @@ import numpy as np
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
 from flowkit.lab.base import EXPLORER_PRESETS, Explorer, axis_name, finite_range
-from flowkit.lab.controls import PlaneControls
+from flowkit.lab.controls import DEFAULT_DIRECTION, PlaneControls, coordinate_plane, direction_text
+from flowkit.lab.palette import ORBIT_COLOURS, orbit_cmap
 from flowkit.plot import plot_section
 from flowkit.sections import Plane, Section, Stroboscopic, poincare_section, warm_sections
 from flowkit.seeding import across_domain
 
-#: Colours cycle through this many entries of ``tab20`` when colouring by orbit.
-_ORBIT_COLOURS = 20
+#: Colours cycle through this many entries of :func:`flowkit.lab.palette.orbit_palette`.
+_ORBIT_COLOURS = ORBIT_COLOURS
 #: Name under which the chaos indicator is attached to a section (``section.orbit_values``).
 INDICATOR = "ftle"
 #: Orbits x crossings above which a full update shows a progress bar.
@@ -75,6 +84,9 @@ class SectionExplorer(Explorer):
         Time-periodic flows get a stroboscopic section viewed along this axis.
     offset : float
         Offset of the plane along its normal.
+    direction : {"both", "+", "-"}
+        Crossings kept: every one (default), or only those where the normal
+        coordinate increases ("+") or decreases ("-"). Ignored by stroboscopic sections.
     seeds : array (N, 3), optional
         Starting seeds (default ``n_seeds`` across the domain in the plane,
         :func:`flowkit.seeding.across_domain`).
@@ -100,7 +112,7 @@ class SectionExplorer(Explorer):
     kind = "section"
 
     def __init__(self, flow="stf", *, params=None, normal: str | None = None, offset: float = 0.0,
-                 seeds=None, n_seeds: int = 10, crossings: int = 1000, preview_crossings: int | None = None,
+                 direction: str = DEFAULT_DIRECTION, seeds=None, n_seeds: int = 10, crossings: int = 1000, preview_crossings: int | None = None,
                  rtol: float = 1e-10, atol: float = 1e-12, color_by: str = "orbit", indicator_time: float = 50.0,
                  threads: int | None = None, presets=EXPLORER_PRESETS, **kw):
         import ipywidgets as w
@@ -111,12 +123,15 @@ class SectionExplorer(Explorer):
             raise FlowkitError(f"`crossings` must be a positive integer; got {crossings!r}")
         if normal not in (None, "x", "y", "z"):
             raise FlowkitError(f"`normal` must be 'x', 'y' or 'z'; got {normal!r}")
+        if direction not in ("+", "-", "both"):
+            raise FlowkitError(f"`direction` must be '+', '-' or 'both'; got {direction!r}")
         self.rtol, self.atol, self.threads = rtol, atol, threads
         self.indicator_time = float(indicator_time)
         self.n_seeds = n_seeds
         self._preview_crossings = preview_crossings
-        self._start = {"normal": normal, "offset": float(offset), "crossings": int(crossings), "color_by": color_by}
-        self.plane_controls = PlaneControls()
+        self._start = {"normal": normal, "offset": float(offset), "crossings": int(crossings), "color_by": color_by,
+                       "direction": direction}
+        self.plane_controls = PlaneControls(direction=True)
         self.crossings_box = w.BoundedIntText(value=int(crossings), min=1, max=1_000_000, step=100,
                                               description="crossings")
         self.color_picker = w.ToggleButtons(options=["orbit", "chaos"], value=color_by, description="colour",
@@ -142,10 +157,10 @@ class SectionExplorer(Explorer):
     @property
     def geometry(self) -> Plane | Stroboscopic:
         """The section the controls describe: a plane, or stroboscopic for time-periodic flows."""
-        n = np.eye(3)["xyz".index(self.plane_controls.normal.value)]
+        pc = self.plane_controls
         if self._base.steady:
-            return Plane(n, self.plane_controls.offset.value, "+")
-        return Stroboscopic(view=Plane(n, 0.0, "+"))
+            return coordinate_plane(pc.normal.value, pc.offset.value, pc.direction.value)
+        return Stroboscopic(view=coordinate_plane(pc.normal.value, 0.0, "both"))
 
     @property
     def view(self) -> Plane:
@@ -159,8 +174,9 @@ class SectionExplorer(Explorer):
         base = self._base
         self._quiet = True
         try:
-            self.plane_controls.reset(base, self._start["normal"], self._start["offset"])
+            self.plane_controls.reset(base, self._start["normal"], self._start["offset"], self._start["direction"])
             self.plane_controls.offset.disabled = not base.steady
+            self.plane_controls.direction.disabled = not base.steady  # every period: no direction
             self.crossings_box.value = self._start["crossings"]
         finally:
             self._quiet = False
@@ -248,13 +264,21 @@ class SectionExplorer(Explorer):
     def _build_axes(self) -> None:
         import matplotlib as mpl
 
+        from matplotlib.ticker import MaxNLocator
+
         ax = self.fig.add_subplot()
         self.ax = ax
+        self._orbit_cmap = orbit_cmap(_ORBIT_COLOURS)
+        self._cmap_name = "orbits"
         self.scatter = ax.scatter(np.zeros(0), np.zeros(0), c=np.zeros(0), s=1.0, linewidths=0,
-                                  cmap=mpl.colormaps["tab20"], vmin=-0.5, vmax=_ORBIT_COLOURS - 0.5,
+                                  cmap=self._orbit_cmap, vmin=-0.5, vmax=_ORBIT_COLOURS - 0.5,
                                   plotnonfinite=True)  # on screen; exports rasterize (plot_section)
+        for axis in (ax.xaxis, ax.yaxis):  # at most 6 ticks: labels such as -0.75 never touch
+            axis.set_major_locator(MaxNLocator(nbins=5, steps=[1, 2, 2.5, 5, 10]))
         (self.boundary,) = ax.plot([], [], color="0.3", lw=0.8)
-        self.colorbar = self.fig.colorbar(self.scatter, ax=ax, shrink=0.8, label="finite-time largest exponent")
+        # the colour bar sits in an inset, so while it is hidden the section gets the whole width
+        cax = ax.inset_axes([1.04, 0.1, 0.04, 0.8])
+        self.colorbar = self.fig.colorbar(self.scatter, cax=cax, label="finite-time largest exponent")
         self.threshold_line = self.colorbar.ax.axhline(0.0, color="k", lw=1.0)
         self.colorbar.ax.set_visible(False)
         ax.set_aspect("equal")
@@ -283,7 +307,7 @@ class SectionExplorer(Explorer):
             per_orbit = np.asarray(sec.orbit_values[INDICATOR], dtype=float)
             lo, hi = finite_range(per_orbit)
             return per_orbit[sec.orbit], "viridis", (min(lo, 0.0), hi)
-        return (sec.orbit % _ORBIT_COLOURS).astype(float), "tab20", (-0.5, _ORBIT_COLOURS - 0.5)
+        return (sec.orbit % _ORBIT_COLOURS).astype(float), "orbits", (-0.5, _ORBIT_COLOURS - 0.5)
 
     def _draw(self, sec: Section, preview: bool) -> None:
         import matplotlib as mpl
@@ -292,10 +316,12 @@ class SectionExplorer(Explorer):
         self.scatter.set_offsets(sec.display_coords())
         self.scatter.set_sizes([marker_size(len(values))])
         self.scatter.set_array(values)
-        if cmap != self.scatter.get_cmap().name.removesuffix("_extremes") or clim != self.scatter.get_clim():
+        if cmap != self._cmap_name or clim != self.scatter.get_clim():
             # only on a real change: each one also redraws the colour bar
-            self.scatter.set_cmap(mpl.colormaps[cmap].with_extremes(bad="0.7"))
+            base = self._orbit_cmap if cmap == "orbits" else mpl.colormaps[cmap]
+            self.scatter.set_cmap(base.with_extremes(bad="0.7"))
             self.scatter.set_clim(*clim)
+            self._cmap_name = cmap
         chaos = cmap == "viridis"
         self.colorbar.ax.set_visible(chaos)
         if chaos:
@@ -304,8 +330,16 @@ class SectionExplorer(Explorer):
         if self._base.domain not in ("ball", "periodic") and len(values):
             self.ax.update_datalim(sec.display_coords())
             self.ax.autoscale_view()
-        self.ax.set_title(self._label(self.flow) + ("  (preview)" if preview else ""),
+        self.ax.set_title(self._label(self.flow) + ("  (preview)" if preview else "") + "\n" + self.section_text(),
                           fontsize=10)
+
+    def section_text(self) -> str:
+        """Which section the figure shows, e.g. 'plane y = 0, crossings: both directions'."""
+        pc = self.plane_controls
+        if not self._base.steady:
+            return f"stroboscopic (every period), seen along {pc.normal.value}"
+        return f"plane {pc.normal.value} = {pc.offset.value:.3g}, " + direction_text(pc.normal.value,
+                                                                                      pc.direction.value)
 
     def _describe(self, sec: Section) -> str:
         bad = {k: v for k, v in sec.outcomes.items() if v and k not in ("crossing budget", "finished")}
@@ -321,10 +355,12 @@ class SectionExplorer(Explorer):
         fig = Figure(figsize=(3.4, 3.0), layout="constrained")
         ax = fig.add_subplot()
         chaos = self.color_picker.value == "chaos" and INDICATOR in sec.orbit_values
-        art = plot_section(ax, sec, color_by=INDICATOR if chaos else "orbit", size=0.3, colorbar=False)
+        art = plot_section(ax, sec, color_by=INDICATOR if chaos else "orbit", size=0.3, colorbar=False,
+                           cmap=None if chaos else self._orbit_cmap)
         if chaos:
             fig.colorbar(art[0], ax=ax, shrink=0.8, label="finite-time largest exponent")
-        ax.set(xlim=self.ax.get_xlim(), ylim=self.ax.get_ylim(), title=self._label(self.flow))
+        ax.set(xlim=self.ax.get_xlim(), ylim=self.ax.get_ylim(), xlabel=self.ax.get_xlabel(),
+               ylabel=self.ax.get_ylabel(), title=self._label(self.flow) + "\n" + self.section_text())
         return fig
 
     def save_data(self, path) -> None:
