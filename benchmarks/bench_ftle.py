@@ -33,7 +33,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 from _common import best_of, machine, save  # noqa: E402
 
 import flowkit  # noqa: E402
-from flowkit.ftle import GridPlane, ftle_field  # noqa: E402
+from flowkit.chaos import GridPlane, ftle_field  # noqa: E402
 from flowkit.integrate.batch import IntegratorSettings  # noqa: E402
 
 N = 256

@@ -1,7 +1,7 @@
 """Frozen-in field vectors, material lines and flux: cost against plain trajectories of the same particles.
 
 1. Field vectors on the stretch-twist-fold flow (rotation 0.3) to t = 50:
-   :func:`flowkit.stretching.stretch` (position + field vector, renormalized every
+   :func:`flowkit.fields.stretch` (position + field vector, renormalized every
    step, 100 checkpoints, moments and jackknife) against the plain trajectory
    integration of the *same seeds* with the same DOP853 tolerances
    (:func:`flowkit.integrate.batch.integrate_states`), measured in the same run.
@@ -31,9 +31,8 @@ from _common import machine, save  # noqa: E402
 
 import flowkit  # noqa: E402
 from flowkit.integrate.batch import IntegratorSettings, integrate_states  # noqa: E402
-from flowkit.lines import material_line  # noqa: E402
-from flowkit.flux import flux_growth  # noqa: E402
-from flowkit.stretching import default_seeds, stretch  # noqa: E402
+from flowkit.fields import flux_growth, material_line, stretch  # noqa: E402
+from flowkit.fields.particles import default_seeds  # noqa: E402
 
 T = 50.0
 SETTINGS = IntegratorSettings(rtol=1e-9, atol=1e-12)

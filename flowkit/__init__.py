@@ -4,9 +4,12 @@ Import is light: nothing is compiled and sympy/numba kernels are built on first
 use of a flow. Start with ``flowkit.flow("stf", rotation=0.3)``.
 """
 
+from flowkit import _moved
 from flowkit._version import __version__
 from flowkit.errors import FlowDefinitionError, FlowkitError, FlowkitNotice
 from flowkit.flows import Flow, custom_flow, flow, lamb_flow, preset_names, surface_flow
+
+_moved.install()  # old root module paths (flowkit.lyapunov, flowkit.stretching, ...) still import
 
 #: Analysis entry points, imported on first use so ``import flowkit`` stays light.
 _LAZY = {
@@ -14,13 +17,13 @@ _LAZY = {
     "poincare_section": "flowkit.sections",
     "Plane": "flowkit.sections",
     "Stroboscopic": "flowkit.sections",
-    "lyapunov_spectrum": "flowkit.lyapunov",
+    "lyapunov_spectrum": "flowkit.chaos",
     "chaotic_fraction": "flowkit.chaos",
-    "ftle_field": "flowkit.ftle",
-    "GridPlane": "flowkit.ftle",
-    "stretch": "flowkit.stretching",
-    "material_line": "flowkit.lines",
-    "flux_growth": "flowkit.flux",
+    "ftle_field": "flowkit.chaos",
+    "GridPlane": "flowkit.chaos",
+    "stretch": "flowkit.fields",
+    "material_line": "flowkit.fields",
+    "flux_growth": "flowkit.fields",
     "growth_rate": "flowkit.dynamo",
     "sweep_rm": "flowkit.dynamo",
     "sweep_kz": "flowkit.dynamo",

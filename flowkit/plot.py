@@ -11,7 +11,7 @@ import numpy as np
 
 
 # ======================================================================================
-# Lyapunov exponents and FTLE fields (flowkit.lyapunov, flowkit.ftle)
+# Lyapunov exponents and FTLE fields (flowkit.chaos)
 # ======================================================================================
 def _plane_axis_labels(plane: dict) -> tuple[str, str]:
     """Axis names for a grid plane: coordinate names when the axes are coordinate axes."""
@@ -25,7 +25,7 @@ def _plane_axis_labels(plane: dict) -> tuple[str, str]:
 
 def plot_ftle(ax, field, *, cmap: str = "magma", colorbar: bool = True, vmin=None, vmax=None,
               bad_color: str = "0.85", **style) -> dict:
-    """Draw an :class:`~flowkit.ftle.FTLEField` as an image with a colorbar.
+    """Draw an :class:`~flowkit.chaos.FTLEField` as an image with a colorbar.
 
     Grid points outside the domain or whose orbit failed are NaN and shown in
     ``bad_color``. Extra keyword arguments go to ``ax.imshow``. The image is
@@ -58,7 +58,7 @@ def plot_ftle(ax, field, *, cmap: str = "magma", colorbar: bool = True, vmin=Non
 
 
 def plot_lyapunov_running(ax, spectrum, **style) -> list:
-    """Running estimate of each exponent of a :class:`~flowkit.lyapunov.Spectrum` vs time.
+    """Running estimate of each exponent of a :class:`~flowkit.chaos.Spectrum` vs time.
 
     A dashed line per exponent marks the final estimate; the shaded band is
     ± 2 standard errors.
@@ -202,7 +202,7 @@ def _vec_label(e) -> str:
 
 # ======================================================================================
 # Frozen-in fields: growth curves and material lines
-# (flowkit.stretching.StretchResult, flowkit.lines.LineResult, flowkit.flux.FluxResult)
+# (flowkit.fields: StretchResult, LineResult, FluxResult)
 # ======================================================================================
 import math  # noqa: E402,F811  (this block's imports kept with it)
 

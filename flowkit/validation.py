@@ -106,6 +106,17 @@ def points_in_domain(flow, value, name: str = "seeds") -> np.ndarray:
     return arr
 
 
+def parse_vector(text: str, name: str, length: int = 3) -> list[float]:
+    """Parse ``"1,0,0"`` (command-line text) into ``length`` floats, naming the option on error."""
+    try:
+        vals = [float(v) for v in str(text).split(",")]
+    except ValueError:
+        raise FlowkitError(f"{name} expects {length} comma-separated numbers, e.g. 0,0,1; got {text!r}") from None
+    if len(vals) != length:
+        raise FlowkitError(f"{name} expects {length} comma-separated numbers; got {len(vals)} in {text!r}")
+    return vals
+
+
 def resolution(value, name: str = "resolution", *, minimum: int = 4, maximum: int | None = None) -> int:
     """A grid size: an integer >= ``minimum``."""
     return count(value, name, minimum=minimum, maximum=maximum, what=" (grid points per direction)")

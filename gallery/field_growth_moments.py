@@ -17,7 +17,7 @@ from _common import save, size
 
 import flowkit
 from flowkit.plot import plot_growth
-from flowkit.stretching import stretch
+from flowkit.fields import stretch
 
 res = stretch(flowkit.flow("stf", rotation=0.3), size(4000, 60), size(30.0, 4.0), p=(1.0, 2.0),
               samples=size(120, 16))
@@ -31,4 +31,4 @@ save(fig, "field_growth_moments")
 # %%
 # .. admonition:: API used
 #
-#    flowkit.flow, flowkit.stretching.stretch, flowkit.plot.plot_growth
+#    flowkit.flow, flowkit.fields.stretch, flowkit.plot.plot_growth

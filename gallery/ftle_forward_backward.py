@@ -16,7 +16,7 @@ import matplotlib.pyplot as plt
 from _common import save, size
 
 import flowkit
-from flowkit.ftle import GridPlane, ftle_field
+from flowkit.chaos import GridPlane, ftle_field
 from flowkit.plot import plot_ftle
 
 reactor = flowkit.flow("stf", rotation=0.5)
@@ -32,4 +32,4 @@ save(fig, "ftle_forward_backward")
 # %%
 # .. admonition:: API used
 #
-#    flowkit.flow, flowkit.ftle.GridPlane.coordinate, flowkit.ftle.ftle_field, flowkit.plot.plot_ftle
+#    flowkit.flow, flowkit.chaos.GridPlane.coordinate, flowkit.chaos.ftle_field, flowkit.plot.plot_ftle

@@ -16,7 +16,7 @@ import matplotlib.pyplot as plt
 from _common import save, size
 
 import flowkit
-from flowkit.lyapunov import lyapunov_spectrum
+from flowkit.chaos import lyapunov_spectrum
 from flowkit.plot import plot_lyapunov_running
 
 runs = [("Lorenz system", lyapunov_spectrum(flowkit.flow("lorenz"), [1.0, 1.0, 20.0], size(1000.0, 20.0))),
@@ -32,4 +32,4 @@ save(fig, "lyapunov_running")
 # %%
 # .. admonition:: API used
 #
-#    flowkit.flow, flowkit.lyapunov.lyapunov_spectrum, flowkit.plot.plot_lyapunov_running
+#    flowkit.flow, flowkit.chaos.lyapunov_spectrum, flowkit.plot.plot_lyapunov_running

@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 import flowkit
-import flowkit.flux as fluxmod
+import flowkit.fields.flux as fluxmod
 from flowkit.errors import FlowkitError
-from flowkit.flux import FluxResult, disc, flux_growth, patch
+from flowkit.fields import FluxResult, disc, flux_growth, patch
 from flowkit.integrate.batch import IntegratorSettings
 
 G_NAMES = [f"g{i}{j}" for i in range(1, 4) for j in range(1, 4)]
@@ -95,7 +95,7 @@ def test_bad_input_and_saving(tmp_path):
         flux_growth(f, -2.0)
     with pytest.raises(FlowkitError, match="not parallel"):
         patch((0, 0, 0), (1, 0, 0), (2, 0, 0))
-    from flowkit.maps import custom_map
+    from flowkit.flows import custom_map
 
     with pytest.raises(FlowkitError, match="has no inverse"):
         flux_growth(custom_map(["2*x", "y/2", "z"], periods=(1, 1, 1)), 3)

@@ -9,7 +9,8 @@ import scipy.linalg
 import flowkit
 from flowkit.cli import main
 from flowkit.errors import FlowkitError
-from flowkit.ftle import OUTSIDE, FTLEField, GridPlane, ftle_field
+from flowkit.chaos import FTLEField, GridPlane, ftle_field
+from flowkit.chaos.ftle import OUTSIDE
 from flowkit.integrate.batch import IntegratorSettings, integrate_states
 
 TIGHT = IntegratorSettings(rtol=1e-12, atol=1e-14)
@@ -180,7 +181,7 @@ def test_cli_ftle_json_writes_file_and_plot(capsys, tmp_path):
 
 
 def test_interrupted_field_keeps_finished_chunks(gyre, monkeypatch):
-    import flowkit.ftle as ftle_mod
+    import flowkit.chaos.ftle as ftle_mod
 
     real, calls = ftle_mod._run_chunk, []
 

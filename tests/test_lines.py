@@ -7,10 +7,10 @@ import pytest
 from scipy.special import ellipe
 
 import flowkit
-import flowkit.lines as lines
+import flowkit.fields.lines as lines
 from flowkit.errors import FlowkitError
 from flowkit.integrate.batch import IntegratorSettings
-from flowkit.lines import LineResult, circle, curve, material_line, segment
+from flowkit.fields import LineResult, circle, curve, material_line, segment
 
 G_NAMES = [f"g{i}{j}" for i in range(1, 4) for j in range(1, 4)]
 LINEAR = [" + ".join(f"g{i}{j}*{c}" for j, c in zip(range(1, 4), "xyz")) for i in range(1, 4)]

@@ -11,7 +11,7 @@ from flowkit.chaos import chaotic_fraction, default_threshold, orbit_ftle, orbit
 from flowkit.cli import main
 from flowkit.errors import FlowkitError, FlowkitNotice
 from flowkit.integrate.batch import IntegratorSettings
-from flowkit.lyapunov import Spectrum, lyapunov_spectrum
+from flowkit.chaos import Spectrum, lyapunov_spectrum
 
 
 @pytest.fixture(scope="module")
@@ -213,7 +213,7 @@ def test_cli_lyapunov_json(capsys):
 
 
 def test_interrupted_spectrum_keeps_the_finished_blocks(monkeypatch):
-    import flowkit.lyapunov as lyap
+    import flowkit.chaos.spectrum as lyap
 
     real, calls = lyap.run_tangent, []
 

@@ -10,8 +10,9 @@ import pytest
 import flowkit
 from flowkit.cli import main
 from flowkit.errors import FlowkitError
-from flowkit.maps import Map, custom_map
-from flowkit.stretching import stretch
+from flowkit.flows import custom_map
+from flowkit.flows.maps import Map
+from flowkit.fields import stretch
 
 RNG = np.random.default_rng(5)
 CAT = np.array([[2.0, 1.0], [1.0, 1.0]])

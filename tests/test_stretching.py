@@ -10,11 +10,11 @@ from scipy.linalg import expm
 from scipy.special import logsumexp
 
 import flowkit
-import flowkit.stretching as stretching
+import flowkit.fields.vectors as stretching
 from flowkit.cli import main
 from flowkit.errors import FlowkitError
 from flowkit.integrate.batch import IntegratorSettings
-from flowkit.stretching import StretchResult, fit_slope, stretch
+from flowkit.fields import StretchResult, fit_slope, stretch
 
 G_NAMES = [f"g{i}{j}" for i in range(1, 4) for j in range(1, 4)]
 LINEAR = [" + ".join(f"g{i}{j}*{c}" for j, c in zip(range(1, 4), "xyz")) for i in range(1, 4)]
@@ -75,7 +75,7 @@ def lorenz_run():
 
 
 def test_mean_log_stretching_matches_the_lyapunov_module_and_published_value(lorenz_run):
-    from flowkit.lyapunov import lyapunov_spectrum
+    from flowkit.chaos import lyapunov_spectrum
 
     lor, res = lorenz_run
     spec = lyapunov_spectrum(lor, [1.0, 1.0, 20.0], 400.0, transient=10.0)

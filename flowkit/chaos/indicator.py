@@ -31,11 +31,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from flowkit.chaos.tangent import dop853_settings, method_record, require_flow, run_tangent, tangent_states
 from flowkit.errors import FlowkitError, FlowkitNotice
 from flowkit.flows.base import Flow
 from flowkit.integrate.batch import IntegratorSettings, check_seeds
 from flowkit.integrate.outcomes import Outcome, outcome_counts
-from flowkit.lyapunov import check_time, dop853_settings, method_record, require_flow, run_tangent, tangent_states
+from flowkit.validation import duration as check_time
 
 __all__ = ["orbit_ftle", "orbit_indicator", "attach_indicator", "default_threshold", "ChaoticFraction",
            "chaotic_fraction", "OrbitExponents"]

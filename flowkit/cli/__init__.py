@@ -23,9 +23,9 @@ COMMANDS = ["flows", "describe", "check", "section", "lyapunov", "ftle", "stretc
 
 def _jsonable(obj):
     """JSON-ready copy of a command's result (NaN and infinities become null)."""
-    from flowkit.jsonable import json_ready
+    from flowkit.results.encoding import plain
 
-    return json_ready(obj)
+    return plain(obj)
 
 
 def _plain(result: dict, indent: str = "") -> str:

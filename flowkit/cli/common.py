@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 
 from flowkit.errors import FlowkitError
+from flowkit.validation import parse_vector  # noqa: F401  (re-exported for subcommands)
 
 
 def add_flow_args(parser: argparse.ArgumentParser) -> None:
@@ -35,14 +36,3 @@ def flow_from_args(args):
     from flowkit.flows import flow
 
     return flow(args.flow, **parse_params(args.params))
-
-
-def parse_vector(text: str, name: str, length: int = 3) -> list[float]:
-    """Parse ``"1,0,0"`` into floats, naming the option on error."""
-    try:
-        vals = [float(v) for v in text.split(",")]
-    except ValueError:
-        raise FlowkitError(f"{name} expects {length} comma-separated numbers, e.g. 0,0,1; got {text!r}") from None
-    if len(vals) != length:
-        raise FlowkitError(f"{name} expects {length} comma-separated numbers; got {len(vals)} in {text!r}")
-    return vals

@@ -48,7 +48,7 @@ def parse_resolution(text: str) -> tuple[int, int]:
 def run(args) -> dict:
     import numpy as np
 
-    from flowkit.ftle import GridPlane, ftle_field
+    from flowkit.chaos import GridPlane, ftle_field
     from flowkit.integrate.batch import IntegratorSettings
 
     flow = flow_from_args(args)

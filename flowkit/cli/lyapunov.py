@@ -25,7 +25,7 @@ def warm_tangent(flow) -> float:
     """Compile the tangent kernel for ``flow`` on a tiny run; return the seconds spent."""
     import numpy as np
 
-    from flowkit.lyapunov import dop853_settings, n_exponents, run_tangent, tangent_states
+    from flowkit.chaos.tangent import dop853_settings, n_exponents, run_tangent, tangent_states
 
     t0 = time.perf_counter()
     flow.family.warm()
@@ -36,7 +36,7 @@ def warm_tangent(flow) -> float:
 
 def run(args) -> dict:
     from flowkit.integrate.batch import IntegratorSettings
-    from flowkit.lyapunov import lyapunov_spectrum
+    from flowkit.chaos import lyapunov_spectrum
 
     flow = flow_from_args(args)
     point = parse_vector(args.point, "--point")

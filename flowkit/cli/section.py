@@ -14,7 +14,9 @@ def add(sub):
     add_flow_args(p)
     p.add_argument("--normal", default="0,1,0", metavar="X,Y,Z", help="plane normal (default 0,1,0)")
     p.add_argument("--offset", type=float, default=0.0, metavar="D", help="plane offset along the unit normal (default 0)")
-    p.add_argument("--direction", choices=["+", "-", "both"], default="+", help="crossing direction kept (default +)")
+    p.add_argument("--direction", choices=["+", "-", "both"], default="both",
+                   help="crossings kept: both (default, as the lab and `run.sh headless`), or + / - for one side "
+                        "only (a one-sided return map)")
     p.add_argument("--stroboscopic", action="store_true", help="sample every period instead (time-periodic flows)")
     seeds = p.add_mutually_exclusive_group()
     seeds.add_argument("--seeds", type=int, default=None, metavar="N",

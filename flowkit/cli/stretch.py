@@ -53,7 +53,8 @@ def run(args) -> dict:
     from flowkit.cli.common import flow_from_args
     from flowkit.errors import FlowkitError
     from flowkit.integrate.batch import IntegratorSettings
-    from flowkit.stretching import is_map, stretch
+    from flowkit.fields import stretch
+    from flowkit.flows.maps import is_map
 
     system = flow_from_args(args)
     mapping = is_map(system)
@@ -93,7 +94,7 @@ def _skipped(reason: str) -> dict:
 
 
 def _line(system, duration, args, settings):
-    from flowkit.lines import material_line
+    from flowkit.fields import material_line
 
     if args.line_points == 0:
         return _skipped("skipped (--line-points 0)"), None
@@ -107,7 +108,7 @@ def _line(system, duration, args, settings):
 
 
 def _flux(system, duration, args, settings):
-    from flowkit.flux import flux_growth
+    from flowkit.fields import flux_growth
 
     if args.flux_samples == 0:
         return _skipped("skipped (--flux-samples 0)"), None

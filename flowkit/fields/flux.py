@@ -47,175 +47,22 @@ from __future__ import annotations
 
 import math
 import time as _time
-from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
 
 from flowkit.errors import FlowkitError
 from flowkit.integrate.outcomes import Outcome, outcome_counts
-from flowkit.stretching import (
-    RateEstimate, SavedResult, _num, check_duration, check_points, check_system, is_map, jackknife_stderr,
-    ols_weights, progress_bar, provenance_of, run_frames, stretch_settings, units, window_mask,
+from flowkit.fields.particles import (
+    check_duration, check_points, check_system, provenance_of, run_frames, stretch_settings, units,
 )
+from flowkit.fields.rates import RateEstimate, jackknife_stderr, ols_weights, window_mask
+from flowkit.fields.results import FluxResult
+from flowkit.fields.surfaces import Surface, default_surface, disc, patch  # noqa: F401
+from flowkit.flows.maps import is_map
+from flowkit.progress import progress_bar
 
 __all__ = ["FluxResult", "Surface", "disc", "patch", "flux_growth"]
-
-
-# -- fixed surfaces ---------------------------------------------------------------------------
-@dataclass
-class Surface:
-    """A flat surface S: uniform sampling, orthonormal tangents (a, b), unit normal a x b, area."""
-
-    kind: str
-    origin: np.ndarray
-    a: np.ndarray
-    b: np.ndarray
-    size: tuple
-    area: float
-    description: dict
-
-    @property
-    def normal(self) -> np.ndarray:
-        return np.cross(self.a, self.b)
-
-    def sample(self, M: int, rng: np.random.Generator) -> np.ndarray:
-        """``M`` points distributed uniformly (by area) on the surface."""
-        if self.kind == "disc":
-            r = self.size[0] * np.sqrt(rng.random(M))
-            th = 2 * math.pi * rng.random(M)
-            return self.origin + (r * np.cos(th))[:, None] * self.a + (r * np.sin(th))[:, None] * self.b
-        eu, ev = self.size
-        u, v = rng.random(M), rng.random(M)
-        return self.origin + u[:, None] * np.asarray(eu) + v[:, None] * np.asarray(ev)
-
-
-def _unit(v, name) -> np.ndarray:
-    arr = np.asarray(v, dtype=np.float64)
-    if arr.shape != (3,) or not np.all(np.isfinite(arr)) or not np.linalg.norm(arr) > 0:
-        raise FlowkitError(f"`{name}` must be a non-zero vector of three finite numbers; got {v!r}")
-    return arr / np.linalg.norm(arr)
-
-
-def disc(center, normal, radius: float) -> Surface:
-    """The flat disc of ``radius`` around ``center`` with unit ``normal``."""
-    c = np.asarray(center, dtype=np.float64)
-    if c.shape != (3,) or not np.all(np.isfinite(c)):
-        raise FlowkitError(f"`center` must be three finite numbers; got {center!r}")
-    n = _unit(normal, "normal")
-    if not (math.isfinite(radius) and radius > 0):
-        raise FlowkitError(f"`radius` must be positive; got {radius!r}")
-    a = np.cross(n, [1.0, 0, 0] if abs(n[0]) < 0.9 else [0, 1.0, 0])
-    a /= np.linalg.norm(a)
-    b = np.cross(n, a)
-    return Surface("disc", c, a, b, (float(radius),), math.pi * radius**2,
-                   {"disc": {"center": c.tolist(), "normal": n.tolist(), "radius": float(radius)}})
-
-
-def patch(origin, edge_u, edge_v) -> Surface:
-    """The parallelogram ``origin + u edge_u + v edge_v``, u, v in [0, 1]; normal along edge_u x edge_v."""
-    o = np.asarray(origin, dtype=np.float64)
-    eu = np.asarray(edge_u, dtype=np.float64)
-    ev = np.asarray(edge_v, dtype=np.float64)
-    for name, v in (("origin", o), ("edge_u", eu), ("edge_v", ev)):
-        if v.shape != (3,) or not np.all(np.isfinite(v)):
-            raise FlowkitError(f"`{name}` must be three finite numbers; got {v!r}")
-    cr = np.cross(eu, ev)
-    area = float(np.linalg.norm(cr))
-    if not area > 0:
-        raise FlowkitError("`edge_u` and `edge_v` must be non-zero and not parallel")
-    a = eu / np.linalg.norm(eu)
-    b = np.cross(cr / area, a)
-    return Surface("patch", o, a, b, (eu, ev), area,
-                   {"patch": {"origin": o.tolist(), "edge_u": eu.tolist(), "edge_v": ev.tolist()}})
-
-
-def default_surface(system) -> Surface:
-    """A surface inside the domain (used by the command line): see :func:`flux_growth`."""
-    if is_map(system):
-        return patch((0.37, 0.0, 0.0), (0.0, 1.0, 0.0), (0.0, 0.0, 1.0))
-    if system.domain == "ball":
-        return disc((0.0, 0.0, 0.0), (0.0, 0.0, 1.0), 0.999)
-    if system.domain == "periodic":
-        return patch((1.0, 0.0, 0.0), (0.0, math.pi, 0.0), (0.0, 0.0, math.pi))
-    return disc((0.0, 0.0, 0.0), (0.0, 0.0, 1.0), 1.0)
-
-
-# -- the result ---------------------------------------------------------------------------------
-@dataclass
-class FluxResult(SavedResult):
-    """Net and unsigned flux through a fixed surface (see :mod:`flowkit.flux`).
-
-    Attributes
-    ----------
-    times : ndarray
-        Checkpoints (time, or iterations for maps).
-    log_unsigned : ndarray
-        ln of the unsigned flux int_S |B . n| dA.
-    ratio, ratio_stderr : ndarray
-        Net / unsigned flux (in [-1, 1]) and its Monte Carlo standard error.
-    flux_rate : RateEstimate
-        Growth rate of |net flux| (NaN if cancellation hides it below the sampling noise).
-    unsigned_rate : RateEstimate
-        Growth rate of the unsigned flux.
-    """
-
-    times: np.ndarray
-    log_unsigned: np.ndarray
-    ratio: np.ndarray
-    ratio_stderr: np.ndarray
-    flux_rate: RateEstimate
-    unsigned_rate: RateEstimate
-    area: float
-    surface: dict
-    field: object
-    samples: int
-    outcomes: dict
-    units: str
-    partial: bool
-    notes: list
-    seconds: float
-    provenance: dict = field(default_factory=dict)
-
-    _ARRAYS = ("times", "log_unsigned", "ratio", "ratio_stderr")
-    _RATES = ("flux_rate", "unsigned_rate")
-
-    @property
-    def unsigned(self) -> np.ndarray:
-        """Unsigned flux (overflows to inf beyond e^709; use ``log_unsigned``)."""
-        with np.errstate(over="ignore"):
-            return np.exp(self.log_unsigned)
-
-    @property
-    def net(self) -> np.ndarray:
-        """Net signed flux."""
-        with np.errstate(over="ignore", invalid="ignore"):
-            return self.ratio * np.exp(self.log_unsigned)
-
-    @property
-    def net_stderr(self) -> np.ndarray:
-        with np.errstate(over="ignore"):
-            return self.ratio_stderr * np.exp(self.log_unsigned)
-
-    def to_dict(self) -> dict:
-        """JSON-ready summary."""
-        return {
-            "flux_rate": self.flux_rate.to_dict(), "unsigned_rate": self.unsigned_rate.to_dict(),
-            "final_ratio": _num(self.ratio[-1]), "final_ratio_stderr": _num(self.ratio_stderr[-1]),
-            "final_log_unsigned": _num(self.log_unsigned[-1]), "area": self.area, "surface": self.surface,
-            "field": self.field, "samples": self.samples, "outcomes": self.outcomes, "units": self.units,
-            "partial": self.partial, "notes": list(self.notes), "seconds": self.seconds,
-            "provenance": self.provenance,
-        }
-
-    def to_xarray(self):
-        """Flux history as an ``xarray.Dataset`` (summary JSON in ``attrs``)."""
-        return self._dataset({"log_unsigned": (("time",), self.log_unsigned), "ratio": (("time",), self.ratio),
-                              "ratio_stderr": (("time",), self.ratio_stderr)}, {"time": self.times})
-
-    def __str__(self) -> str:
-        return (f"net flux rate {self.flux_rate} {self.units}; unsigned flux rate {self.unsigned_rate}; "
-                f"final net/unsigned = {self.ratio[-1]:.3g} ± {self.ratio_stderr[-1]:.2g}")
 
 
 # -- the computation ------------------------------------------------------------------------------
@@ -280,7 +127,7 @@ def flux_growth(
         system.inverse_kernels  # noqa: B018 - raises a clear error if the map has no inverse
     S = surface if surface is not None else default_surface(system)
     if not isinstance(S, Surface):
-        raise FlowkitError("`surface` must be a flowkit.flux.Surface (disc(...) or patch(...))")
+        raise FlowkitError("`surface` must be a flowkit.fields.Surface (disc(...) or patch(...))")
     if not (isinstance(samples, (int, np.integer)) and samples >= 2):
         raise FlowkitError(f"`samples` must be an integer >= 2; got {samples!r}")
     rng = np.random.default_rng(seed)

@@ -38,196 +38,21 @@ from __future__ import annotations
 import math
 import resource
 import time as _time
-from dataclasses import dataclass, field
-from typing import Callable
 
 import numpy as np
 
 from flowkit.errors import FlowkitError
-from flowkit.integrate.outcomes import Outcome, outcome_counts
-from flowkit.stretching import (
-    RateEstimate, SavedResult, _num, advance_points, block_rate, check_duration, check_points, check_system, is_map,
-    progress_bar, provenance_of, stretch_settings, units,
+from flowkit.integrate.outcomes import Outcome
+from flowkit.fields.curves import Curve, circle, curve, default_curve, default_spacing, segment  # noqa: F401
+from flowkit.fields.particles import (
+    advance_points, check_duration, check_points, check_system, provenance_of, stretch_settings, units,
 )
+from flowkit.fields.rates import RateEstimate, block_rate
+from flowkit.fields.results import LineResult
+from flowkit.flows.maps import is_map
+from flowkit.progress import progress_bar
 
 __all__ = ["Curve", "LineResult", "circle", "curve", "material_line", "segment"]
-
-
-# -- initial curves -----------------------------------------------------------------------
-@dataclass
-class Curve:
-    """An initial material curve x(s), s in [0, 1] (vectorized: (M,) -> (M, 3))."""
-
-    func: Callable[[np.ndarray], np.ndarray]
-    closed: bool
-    description: dict
-
-    def points(self, s) -> np.ndarray:
-        s = np.asarray(s, dtype=np.float64)
-        out = np.asarray(self.func(s), dtype=np.float64)
-        if out.shape != (len(s), 3):
-            raise FlowkitError(f"the curve function must map M labels to an (M, 3) array; got shape {out.shape}")
-        return np.ascontiguousarray(out)
-
-
-def segment(a, b) -> Curve:
-    """The straight segment from ``a`` to ``b`` (open curve)."""
-    a = _vec(a, "a")
-    b = _vec(b, "b")
-    if np.allclose(a, b):
-        raise FlowkitError("segment end points `a` and `b` coincide; give two different points")
-    return Curve(lambda s: a + s[:, None] * (b - a), False, {"segment": [a.tolist(), b.tolist()]})
-
-
-def circle(center, radius: float, normal=(0.0, 0.0, 1.0)) -> Curve:
-    """The circle of ``radius`` around ``center`` in the plane with unit ``normal`` (closed curve)."""
-    c = _vec(center, "center")
-    n = _vec(normal, "normal")
-    if not (math.isfinite(radius) and radius > 0):
-        raise FlowkitError(f"`radius` must be positive; got {radius!r}")
-    n = n / np.linalg.norm(n)
-    e1 = np.cross(n, [1.0, 0, 0] if abs(n[0]) < 0.9 else [0, 1.0, 0])
-    e1 /= np.linalg.norm(e1)
-    e2 = np.cross(n, e1)
-    r = float(radius)
-
-    def f(s):
-        ang = 2 * math.pi * s[:, None]
-        return c + r * (np.cos(ang) * e1 + np.sin(ang) * e2)
-
-    return Curve(f, True, {"circle": {"center": c.tolist(), "radius": r, "normal": n.tolist()}})
-
-
-def curve(func: Callable, closed: bool = False, name: str = "user curve") -> Curve:
-    """Your own initial curve: ``func(s)`` maps labels (M,) in [0, 1] to points (M, 3)."""
-    if not callable(func):
-        raise FlowkitError("`func` must be callable: labels (M,) -> points (M, 3)")
-    return Curve(func, bool(closed), {"callable": name})
-
-
-def _vec(v, name) -> np.ndarray:
-    arr = np.asarray(v, dtype=np.float64)
-    if arr.shape != (3,) or not np.all(np.isfinite(arr)):
-        raise FlowkitError(f"`{name}` must be three finite numbers; got {v!r}")
-    return arr
-
-
-def default_curve(system) -> Curve:
-    """A generic straight segment inside the domain (used by the command line)."""
-    if is_map(system):
-        if system.domain == "torus":
-            return segment((0.1, 0.3, 0.5), (0.6, 0.3, 0.5))
-        return segment((0.0, 0.3, 0.5), (1.0, 0.3, 0.5))
-    if system.domain == "ball":
-        return segment((-0.5, 0.1, 0.2), (0.5, -0.1, 0.3))
-    if system.domain == "periodic":
-        return segment((0.0, 1.0, 2.0), (math.pi, 1.0, 2.0))
-    return segment((-0.5, 0.0, 0.0), (0.5, 0.0, 0.0))
-
-
-def _default_spacing(system) -> float:
-    if is_map(system):
-        return 0.005
-    return {"ball": 0.01, "periodic": 2 * math.pi / 200}.get(system.domain, 0.02)
-
-
-# -- the result ---------------------------------------------------------------------------
-@dataclass
-class LineResult(SavedResult):
-    """Length history of a material line (see :mod:`flowkit.lines`).
-
-    Attributes
-    ----------
-    times, lengths, npoints : ndarray
-        Pass times (iterations for maps), chord length and number of points.
-    length_error : ndarray
-        Relative discretization error estimate of each length.
-    rate : RateEstimate
-        Line-stretching exponent (slope of ln L over the fit window, block error bar).
-    snapshots : list of (time, (M, 3) array)
-        The line at a few times, thinned to at most ``snapshot_points`` points for drawing.
-    labels, positions, outcome : ndarray
-        Final Lagrangian labels, positions and per-point outcome codes.
-    cut_segments, cut_length : int, float
-        Segments left out of the final length (see the module docstring) and their chord sum.
-    stopped : str
-        "time" (reached the end), "max_points" (point budget) or "interrupted".
-    memory_bytes, peak_bytes, peak_rss_bytes : int
-        Bytes held by the final line (labels 8 + positions 24 + outcome 1 per point),
-        the most held by line arrays during a pass (old and new line together), and
-        the process's peak resident memory (everything, including other objects).
-    """
-
-    times: np.ndarray
-    lengths: np.ndarray
-    npoints: np.ndarray
-    length_error: np.ndarray
-    rate: RateEstimate
-    snapshots: list
-    labels: np.ndarray
-    positions: np.ndarray
-    outcome: np.ndarray
-    cut_segments: int
-    cut_length: float
-    closed: bool
-    stopped: str
-    units: str
-    memory_bytes: int
-    peak_bytes: int
-    peak_rss_bytes: int
-    seconds: float
-    notes: list
-    provenance: dict = field(default_factory=dict)
-
-    _ARRAYS = ("times", "lengths", "npoints", "length_error", "labels", "positions", "outcome")
-    _RATES = ("rate",)
-
-    @property
-    def partial(self) -> bool:
-        return self.stopped == "interrupted"
-
-    @property
-    def outcomes(self) -> dict:
-        return outcome_counts(self.outcome)
-
-    def to_dict(self) -> dict:
-        """JSON-ready summary."""
-        return {
-            "line_stretching": self.rate.to_dict(), "units": self.units, "stopped": self.stopped,
-            "partial": self.partial, "final_time": float(self.times[-1]), "final_length": float(self.lengths[-1]),
-            "final_points": int(self.npoints[-1]), "length_error": _num(self.length_error[-1]),
-            "cut_segments": self.cut_segments, "cut_length": self.cut_length, "outcomes": self.outcomes,
-            "memory_bytes": self.memory_bytes, "peak_bytes": self.peak_bytes,
-            "peak_rss_bytes": self.peak_rss_bytes, "seconds": self.seconds, "notes": list(self.notes),
-            "provenance": self.provenance,
-        }
-
-    def to_xarray(self):
-        """Length history as an ``xarray.Dataset`` (summary JSON in ``attrs``)."""
-        return self._dataset({"length": (("time",), self.lengths), "npoints": (("time",), self.npoints),
-                              "length_error": (("time",), self.length_error)}, {"time": self.times})
-
-    def _save_arrays(self) -> dict:
-        arrays = super()._save_arrays()
-        arrays["snapshot_times"] = np.array([t for t, _ in self.snapshots])
-        arrays.update({f"snapshot_{i}": pts for i, (_, pts) in enumerate(self.snapshots)})
-        return arrays
-
-    def _fields_json(self) -> dict:
-        out = super()._fields_json()
-        out.pop("snapshots")
-        return out
-
-    @classmethod
-    def _restore(cls, fields: dict, arrays: dict) -> dict:
-        times = arrays.pop("snapshot_times")
-        fields["snapshots"] = [(float(t), arrays.pop(f"snapshot_{i}")) for i, t in enumerate(times)]
-        return {**fields, **arrays}
-
-    def __str__(self) -> str:
-        return (f"line-stretching exponent {self.rate} {self.units}; length {self.lengths[0]:.4g} -> "
-                f"{self.lengths[-1]:.4g} with {self.npoints[-1]} points ({self.stopped}); "
-                f"memory {self.memory_bytes / 1e6:.1f} MB")
 
 
 # -- the line -------------------------------------------------------------------------------
@@ -313,8 +138,8 @@ def material_line(
     settings = None if mapping else stretch_settings(settings)
     crv = curve if curve is not None else default_curve(system)
     if not isinstance(crv, Curve):
-        raise FlowkitError("`curve` must be a flowkit.lines.Curve (segment(a, b), circle(c, r, n) or curve(func))")
-    dmax = _default_spacing(system) if max_spacing is None else float(max_spacing)
+        raise FlowkitError("`curve` must be a flowkit.fields.Curve (segment(a, b), circle(c, r, n) or curve(func))")
+    dmax = default_spacing(system) if max_spacing is None else float(max_spacing)
     if not (math.isfinite(dmax) and dmax > 0):
         raise FlowkitError(f"`max_spacing` must be positive; got {max_spacing!r}")
     dmin = dmax / 20 if min_spacing is None else float(min_spacing)

@@ -52,362 +52,27 @@ Statistics
 
 from __future__ import annotations
 
-import json
 import math
 import time as _time
-from dataclasses import dataclass, field
-from pathlib import Path
-from typing import Iterable, NamedTuple, Sequence
+from dataclasses import dataclass
+from typing import Iterable, Sequence
 
 import numpy as np
 from scipy.special import logsumexp
 
-from flowkit._version import __version__
 from flowkit.errors import FlowkitError
-from flowkit.integrate.batch import IntegratorSettings, check_seeds, integrate_states
+from flowkit.fields.particles import (
+    advance_points, check_duration, check_points, check_system, check_transient, checkpoints, default_seeds,
+    provenance_of, random_directions, run_frames, stretch_settings, units, _planar,
+)
+from flowkit.fields.rates import RateEstimate, jackknife_stderr, mean_rate, ols_weights, window_mask
+from flowkit.fields.results import StretchResult
+from flowkit.flows.maps import is_map
+from flowkit.integrate.batch import IntegratorSettings
 from flowkit.integrate.outcomes import Outcome, outcome_counts
-from flowkit.maps import is_map
+from flowkit.progress import progress_bar
 
-__all__ = ["RateEstimate", "StretchResult", "stretch", "fit_slope"]
-
-
-# -- rates and fits (shared with flowkit.lines and flowkit.flux) ---------------------
-@dataclass
-class RateEstimate:
-    """A growth rate with its error bar and the window it was fitted over.
-
-    ``value`` and ``stderr`` are per unit time (flows) or per iteration (maps);
-    NaN when no estimate exists (``method`` then says why).
-    """
-
-    value: float
-    stderr: float
-    window: tuple
-    method: str
-
-    def to_dict(self) -> dict:
-        return {"value": _num(self.value), "stderr": _num(self.stderr), "window": [float(w) for w in self.window],
-                "method": self.method}
-
-    def __str__(self) -> str:
-        return f"{self.value:.6g} ± {self.stderr:.2g} (fit over t in [{self.window[0]:g}, {self.window[1]:g}])"
-
-
-def _num(x) -> float | None:
-    x = float(x)
-    return x if math.isfinite(x) else None
-
-
-def _rate_from(d: dict) -> RateEstimate:
-    val = math.nan if d["value"] is None else d["value"]
-    err = math.nan if d["stderr"] is None else d["stderr"]
-    return RateEstimate(val, err, tuple(d["window"]), d["method"])
-
-
-def _jsonable(obj):
-    from flowkit.cli import _jsonable as conv
-
-    return conv(obj)
-
-
-class SavedResult:
-    """Mixin for result dataclasses: ``save``/``load`` as ``.npz`` (arrays + JSON, no pickle), ``to_xarray``.
-
-    A subclass names its array fields in ``_ARRAYS`` (``None`` values are skipped),
-    its :class:`RateEstimate` fields in ``_RATES`` and its ``{float: RateEstimate}``
-    fields in ``_RATE_DICTS``; every other field must be JSON-ready. Fields
-    annotated ``float`` come back NaN where JSON stored null, ``tuple`` fields as
-    tuples, and dicts keyed by moment order with float keys.
-    """
-
-    _ARRAYS: tuple = ()
-    _RATES: tuple = ()
-    _RATE_DICTS: tuple = ()
-
-    def _fields_json(self) -> dict:
-        import dataclasses
-
-        out = {}
-        for f in dataclasses.fields(self):
-            v = getattr(self, f.name)
-            if f.name in self._ARRAYS:
-                continue
-            if f.name in self._RATES:
-                v = v.to_dict()
-            elif f.name in self._RATE_DICTS:
-                v = {repr(float(k)): r.to_dict() for k, r in v.items()}
-            elif isinstance(v, dict) and v and all(isinstance(k, float) for k in v):
-                v = {repr(k): x for k, x in v.items()}
-            out[f.name] = v
-        return _jsonable(out)
-
-    def _save_arrays(self) -> dict:
-        return {k: getattr(self, k) for k in self._ARRAYS if getattr(self, k) is not None}
-
-    @classmethod
-    def _restore(cls, fields: dict, arrays: dict) -> dict:
-        """Hook: turn stored arrays back into fields (default: by name)."""
-        return {**fields, **arrays}
-
-    def save(self, path) -> Path:
-        """Write to ``.npz``: arrays plus JSON metadata (summary, provenance); reloads without pickle."""
-        from flowkit.lyapunov import write_npz
-
-        path = Path(path)
-        if path.suffix != ".npz":
-            raise FlowkitError(f"`path` must end in .npz; got {path.name!r}")
-        meta = {"flowkit_result": type(self).__name__, "fields": self._fields_json(), "summary": self.to_dict()}
-        return write_npz(path, self._save_arrays(), meta)
-
-    @classmethod
-    def load(cls, path):
-        """Read a file written by :meth:`save` (no code is executed)."""
-        import dataclasses
-
-        from flowkit.lyapunov import read_npz
-
-        arrays, meta = read_npz(Path(path))
-        if meta.get("flowkit_result") != cls.__name__:
-            raise FlowkitError(f"{path} does not hold a flowkit {cls.__name__}")
-        fields = meta["fields"]
-        for f in dataclasses.fields(cls):
-            if f.name not in fields:
-                continue
-            v = fields[f.name]
-            if f.name in cls._RATES:
-                v = _rate_from(v)
-            elif f.name in cls._RATE_DICTS:
-                v = {float(k): _rate_from(r) for k, r in v.items()}
-            elif f.type == "float" and v is None:
-                v = math.nan
-            elif f.type == "tuple" and isinstance(v, list):
-                v = tuple(v)
-            elif f.type == "dict" and isinstance(v, dict) and v and all(_is_float_key(k) for k in v):
-                v = {float(k): x for k, x in v.items()}
-            fields[f.name] = v
-        return cls(**cls._restore(fields, arrays))
-
-    def _dataset(self, data_vars: dict, coords: dict):
-        """An ``xarray.Dataset`` with the JSON summary in ``attrs``."""
-        import xarray as xr
-
-        ds = xr.Dataset(data_vars, coords=coords)
-        ds.attrs["flowkit_result"] = type(self).__name__
-        ds.attrs["summary"] = json.dumps(_jsonable(self.to_dict()))
-        return ds
-
-
-def _is_float_key(k: str) -> bool:
-    try:
-        float(k)
-    except ValueError:
-        return False
-    return "." in k or "e" in k or k in ("inf", "-inf", "nan")
-
-
-def ols_weights(t: np.ndarray) -> np.ndarray:
-    """Weights w with sum(w * y) = least-squares slope of y against ``t``."""
-    t = np.asarray(t, dtype=float)
-    dt = t - t.mean()
-    den = float(np.sum(dt * dt))
-    if den <= 0:
-        raise FlowkitError("a rate fit needs at least two distinct times in the fit window; widen `window`")
-    return dt / den
-
-
-def fit_slope(t, y) -> float:
-    """Least-squares slope of ``y`` against ``t`` (along the last axis of ``y``)."""
-    return np.asarray(y, dtype=float) @ ols_weights(t)
-
-
-def window_mask(times: np.ndarray, window: tuple) -> np.ndarray:
-    """Checkpoints inside the fit window, with a clear error if fewer than three."""
-    mask = (times >= window[0] - 1e-12 * max(1.0, abs(window[0]))) & (times <= window[1] + 1e-12 * abs(window[1]))
-    if mask.sum() < 3:
-        raise FlowkitError(f"the fit window [{window[0]:g}, {window[1]:g}] holds {int(mask.sum())} checkpoints; "
-                           "at least 3 are needed: widen `window` or use more checkpoints (`samples`)")
-    return mask
-
-
-def jackknife_stderr(estimates: np.ndarray) -> np.ndarray:
-    """Delete-one-group jackknife standard error from the G leave-one-out estimates (axis 0)."""
-    est = np.asarray(estimates, dtype=float)
-    G = est.shape[0]
-    if G < 2:
-        return np.full(est.shape[1:], np.nan)
-    return np.sqrt((G - 1) / G * np.sum((est - est.mean(axis=0)) ** 2, axis=0))
-
-
-def block_rate(t: np.ndarray, y: np.ndarray, window: tuple, blocks: int = 4, what: str = "") -> RateEstimate:
-    """Slope of ``y(t)`` over ``window`` with a block error bar (for a single object, e.g. one line).
-
-    The window is cut into ``blocks`` consecutive blocks; the error bar is the
-    standard error of the block slopes (it catches a slope that drifts or
-    fluctuates, which the residuals of one straight line would not).
-    """
-    try:
-        mask = window_mask(t, window) & np.isfinite(y)
-    except FlowkitError as exc:  # e.g. an interrupted run that stopped before the window
-        return RateEstimate(math.nan, math.nan, window, f"{what}no estimate: {exc}")
-    tw, yw = t[mask], y[mask]
-    if len(tw) < 3:
-        return RateEstimate(math.nan, math.nan, window, f"{what}: fewer than 3 finite points in the window")
-    value = float(fit_slope(tw, yw))
-    blocks = max(2, min(blocks, len(tw) // 3))
-    parts = [(a, b) for a, b in zip(np.array_split(tw, blocks), np.array_split(yw, blocks)) if len(a) >= 2]
-    slopes = [float(fit_slope(a, b)) for a, b in parts if np.ptp(a) > 0]
-    err = float(np.std(slopes, ddof=1) / math.sqrt(len(slopes))) if len(slopes) >= 2 else math.nan
-    return RateEstimate(value, err, (float(tw[0]), float(tw[-1])),
-                        f"{what}least-squares slope; error = standard error of {len(slopes)} block slopes")
-
-
-# -- flows and maps alike ---------------------------------------------------------------
-def check_system(system, name: str = "flow"):
-    """A flowkit Flow or Map, or a clear error."""
-    from flowkit.flows.base import Flow
-
-    if isinstance(system, Flow) or is_map(system):
-        return system
-    raise FlowkitError(f"`{name}` must be a flowkit flow or map (flowkit.flow('stf'), flowkit.custom_flow(...), "
-                       f"flowkit.flow('cat-map')); got {type(system).__name__}")
-
-
-def check_duration(system, time, name: str = "time"):
-    """Positive finite duration; a positive integer number of iterations for maps."""
-    if is_map(system):
-        if isinstance(time, float) and time.is_integer():
-            time = int(time)
-        if not (isinstance(time, (int, np.integer)) and not isinstance(time, bool) and time > 0):
-            raise FlowkitError(f"`{name}` is a number of iterations for map '{system.name}': a positive integer; "
-                               f"got {time!r}")
-        return int(time)
-    try:
-        val = float(time)
-    except (TypeError, ValueError):
-        raise FlowkitError(f"`{name}` must be a positive number; got {time!r}") from None
-    if not (math.isfinite(val) and val > 0):
-        raise FlowkitError(f"`{name}` must be a positive, finite duration; got {time!r}")
-    return val
-
-
-def units(system) -> str:
-    return "per iteration" if is_map(system) else "per unit time"
-
-
-def checkpoints(system, time, samples: int) -> np.ndarray:
-    """Checkpoint times 0 .. time (``samples`` stretches; maps: distinct iteration counts)."""
-    if not (isinstance(samples, (int, np.integer)) and samples >= 2):
-        raise FlowkitError(f"`samples` must be an integer >= 2 (number of checkpoints); got {samples!r}")
-    if is_map(system):
-        return np.unique(np.round(np.linspace(0, time, min(samples, time) + 1)).astype(np.int64))
-    return np.linspace(0.0, float(time), samples + 1)
-
-
-def default_seeds(system, n: int, rng: np.random.Generator) -> np.ndarray:
-    """``n`` random points spread over the domain of a flow or the cell of a map."""
-    if is_map(system):
-        return system.sample(n, rng)
-    from flowkit.flows.custom import sample_points
-
-    pts = sample_points(system, n, rng)
-    if system.domain == "ball":
-        pts *= 0.999  # keep seeds strictly inside, away from the wall
-    return pts
-
-
-def check_points(system, seeds, name: str = "seeds") -> np.ndarray:
-    """Validated (N, 3) starting points inside the domain."""
-    if not is_map(system):
-        return check_seeds(system, seeds, name)
-    arr = np.asarray(seeds, dtype=np.float64)
-    if arr.ndim == 1 and arr.size == 3:
-        arr = arr[None, :]
-    if arr.ndim != 2 or arr.shape[1] != 3 or arr.shape[0] == 0:
-        raise FlowkitError(f"`{name}` must be a non-empty array of shape (N, 3); got shape {np.shape(seeds)}")
-    inside = system.contains(arr)
-    if not np.all(inside):
-        bad = int(np.flatnonzero(~inside)[0])
-        raise FlowkitError(f"`{name}` row {bad} ({arr[bad].tolist()}) lies outside the cell of map '{system.name}' "
-                           f"(box {system.family.box}); move it inside")
-    return np.ascontiguousarray(system.wrap(arr))
-
-
-class FrameRun(NamedTuple):
-    logs: np.ndarray     # (N, m, ncol) sums of log R_cc per stretch (NaN where not reached)
-    div: np.ndarray      # (N, m) integral of div u (maps: sum of ln|det DF|) per stretch
-    outcome: np.ndarray  # (N,) int8
-
-
-def run_frames(system, states: np.ndarray, marks: np.ndarray, settings: IntegratorSettings | None,
-               threads: int | None = None) -> FrameRun:
-    """Advance position + orthonormal tangent columns (rows of ``states``, in place) through ``marks``.
-
-    Flows: :func:`flowkit.lyapunov.run_tangent` (adaptive DOP853; ``marks`` are
-    times, decreasing for backward integration). Maps: the map kernel (``marks``
-    are iteration counts; a decreasing sequence iterates the inverse map).
-    """
-    if is_map(system):
-        from flowkit.maps import run_map
-
-        marks = np.asarray(marks, dtype=np.int64)
-        backward = marks[-1] < marks[0]
-        kern = system.inverse_kernels if backward else system.kernels
-        counts = marks[0] - marks if backward else marks
-        r = run_map(kern, states, counts, system.params, system.periods, threads)
-        return FrameRun(r.logs, r.logvol, r.outcome)
-    from flowkit.lyapunov import run_tangent
-
-    r = run_tangent(system, states, np.asarray(marks, dtype=np.float64), settings, threads)
-    return FrameRun(r.logs, r.div, r.outcome)
-
-
-def advance_points(system, points: np.ndarray, t0, t1, settings: IntegratorSettings | None,
-                   threads: int | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Positions (N, 3) moved from t0 to t1 (maps: iteration counts); returns (positions, outcome)."""
-    if is_map(system):
-        Y = np.ascontiguousarray(points, dtype=np.float64).copy()
-        r = run_frames(system, Y, np.array([t0, t1]), None, threads)
-        return Y, r.outcome
-    res = integrate_states(system, points, float(t0), float(t1), settings, threads)
-    return res.states, res.outcome
-
-
-def stretch_settings(settings: IntegratorSettings | None, rtol: float = 1e-9) -> IntegratorSettings:
-    """DOP853 settings for the tangent kernel (default rtol 1e-9, atol 1e-12)."""
-    if settings is None:
-        return IntegratorSettings(rtol=rtol, atol=1e-12)
-    if not isinstance(settings, IntegratorSettings):
-        raise FlowkitError(f"`settings` must be an IntegratorSettings; got {type(settings).__name__}")
-    if settings.method != "dop853":
-        raise FlowkitError("field vectors are integrated with adaptive DOP853; pass "
-                           f"IntegratorSettings(method='dop853', ...) instead of method={settings.method!r}")
-    return settings
-
-
-def random_directions(n: int, rng: np.random.Generator, planar: bool = False) -> np.ndarray:
-    """``n`` isotropically distributed unit vectors (in the x-y plane if ``planar``)."""
-    v = rng.normal(size=(n, 3))
-    if planar:
-        v[:, 2] = 0.0
-    return v / np.linalg.norm(v, axis=1)[:, None]
-
-
-def _planar(system) -> bool:
-    return getattr(system, "kind", "") == "planar"
-
-
-def provenance_of(system, settings, **method) -> dict:
-    """Flow/map provenance plus the method record of a result."""
-    import datetime
-
-    prov = system.provenance()
-    rec = {"flowkit_version": __version__,
-           "date": datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds")}
-    if not is_map(system) and settings is not None:
-        rec["integrator"] = settings.as_dict()
-    rec.update(method)
-    prov["method"] = rec
-    return prov
+__all__ = ["StretchResult", "stretch"]
 
 
 # -- the ensemble -------------------------------------------------------------------------
@@ -438,126 +103,6 @@ class _Chunk:
     outcome: np.ndarray      # (nc,)
     div_sum: float           # sum over valid particles of the integral of div u
     series: np.ndarray | None  # (nc, K+1) ln|B| if kept
-
-
-@dataclass
-class StretchResult(SavedResult):
-    """Stretching statistics of an ensemble of field vectors (see :mod:`flowkit.stretching`).
-
-    Attributes
-    ----------
-    times : ndarray (K+1,)
-        Checkpoints (time, or iteration count for maps), starting at 0.
-    p : ndarray (P,)
-        Moment orders.
-    log_moments, log_moments_stderr : ndarray (K+1, P)
-        ln <|B|^p> at each checkpoint and its jackknife error.
-    mean_log, mean_log_stderr : ndarray (K+1,)
-        <ln|B|> and its standard error over particles.
-    lyapunov : RateEstimate
-        Mean log-stretching rate of the line element (= largest Lyapunov exponent).
-    moment_rates : dict float -> RateEstimate
-        Fitted L(p) for each order.
-    field_rate : RateEstimate
-        Slope of <ln|B|> (equals ``lyapunov`` minus the mean divergence).
-    effective_particles : dict float -> float
-        (sum w)^2 / sum w^2, w = |B|^p at the final checkpoint.
-    window : tuple
-        Fit window actually used.
-    partial : bool
-        True if the run was interrupted; statistics then cover the finished particles.
-    """
-
-    times: np.ndarray
-    p: np.ndarray
-    log_moments: np.ndarray
-    log_moments_stderr: np.ndarray
-    mean_log: np.ndarray
-    mean_log_stderr: np.ndarray
-    lyapunov: RateEstimate
-    moment_rates: dict
-    field_rate: RateEstimate
-    effective_particles: dict
-    window: tuple
-    units: str
-    quantity: str
-    n_requested: int
-    n_run: int
-    n_used: int
-    outcomes: dict
-    mean_divergence: float
-    partial: bool
-    notes: list
-    seeds: np.ndarray
-    initial_field: np.ndarray
-    particle_rates: np.ndarray
-    final_log_field: np.ndarray
-    final_direction: np.ndarray
-    final_positions: np.ndarray
-    outcome: np.ndarray
-    seconds: float
-    series: np.ndarray | None = None
-    provenance: dict = field(default_factory=dict)
-
-    _ARRAYS = ("times", "p", "log_moments", "log_moments_stderr", "mean_log", "mean_log_stderr", "seeds",
-               "initial_field", "particle_rates", "final_log_field", "final_direction", "final_positions",
-               "outcome", "series")
-    _RATES = ("lyapunov", "field_rate")
-    _RATE_DICTS = ("moment_rates",)
-
-    @property
-    def final_field(self) -> np.ndarray:
-        """Final field vectors B (N, 3) relative to |B0| = 1 (overflows to inf beyond e^709)."""
-        with np.errstate(over="ignore"):
-            return self.final_direction * np.exp(self.final_log_field)[:, None]
-
-    def rate(self, p: float) -> RateEstimate:
-        """The fitted moment rate L(p)."""
-        key = float(p)
-        if key not in self.moment_rates:
-            raise FlowkitError(f"no moment of order {p}; computed orders: {sorted(self.moment_rates)}")
-        return self.moment_rates[key]
-
-    def to_dict(self) -> dict:
-        """JSON-ready summary (rates, counts, window, provenance; no per-particle arrays)."""
-        return {
-            "lyapunov": self.lyapunov.to_dict(),
-            "moment_rates": {_pkey(k): v.to_dict() for k, v in self.moment_rates.items()},
-            "field_rate": self.field_rate.to_dict(),
-            "effective_particles": {_pkey(k): v for k, v in self.effective_particles.items()},
-            "window": list(self.window), "units": self.units, "quantity": self.quantity,
-            "particles": {"requested": self.n_requested, "run": self.n_run, "used": self.n_used},
-            "outcomes": self.outcomes, "mean_divergence": _num(self.mean_divergence),
-            "partial": self.partial, "notes": list(self.notes), "seconds": self.seconds,
-            "provenance": self.provenance,
-        }
-
-    def to_xarray(self):
-        """Time series and per-particle data as an ``xarray.Dataset`` (summary JSON in ``attrs``)."""
-        return self._dataset(
-            {"log_moments": (("time", "p"), self.log_moments),
-             "log_moments_stderr": (("time", "p"), self.log_moments_stderr),
-             "mean_log": (("time",), self.mean_log), "mean_log_stderr": (("time",), self.mean_log_stderr),
-             "particle_rates": (("particle",), self.particle_rates),
-             "final_log_field": (("particle",), self.final_log_field),
-             "seeds": (("particle", "xyz"), self.seeds), "outcome": (("particle",), self.outcome)},
-            {"time": self.times, "p": self.p, "particle": np.arange(len(self.seeds)), "xyz": ["x", "y", "z"]},
-        )
-
-    def __str__(self) -> str:
-        lines = [f"mean log-stretching rate {self.lyapunov} {self.units}"]
-        for k, v in self.moment_rates.items():
-            lines.append(f"L({k:g}) = {v.value:.6g} ± {v.stderr:.2g}   (effective particles "
-                         f"{self.effective_particles[k]:.3g})")
-        if self.partial:
-            lines.append(f"PARTIAL: interrupted after {self.n_run} of {self.n_requested} particles")
-        lines += self.notes
-        return "\n".join(lines)
-
-
-def _pkey(p: float) -> str:
-    """Moment order as a JSON key: '1', '2', '0.5'."""
-    return f"{p:g}"
 
 
 def stretch(
@@ -663,7 +208,7 @@ def stretch(
         chunk = int(min(8192, max(256, -(-N // 8))))
     if not (isinstance(chunk, (int, np.integer)) and chunk >= 1):
         raise FlowkitError(f"`chunk` must be a positive integer; got {chunk!r}")
-    tr = _check_transient(system, transient)
+    tr = check_transient(system, transient)
     Q = np.unique(np.concatenate([orders, 2 * orders]))
 
     t_start = _time.perf_counter()
@@ -722,26 +267,6 @@ def _window(window, times) -> tuple:
     return (a, b)
 
 
-def _check_transient(system, transient):
-    if is_map(system):
-        if not (isinstance(transient, (int, np.integer)) or float(transient).is_integer()) or transient < 0:
-            raise FlowkitError(f"`transient` is a number of iterations for maps (integer >= 0); got {transient!r}")
-        return int(transient)
-    tr = float(transient)
-    if not (math.isfinite(tr) and tr >= 0):
-        raise FlowkitError(f"`transient` must be a non-negative time; got {transient!r}")
-    return tr
-
-
-def progress_bar(iterable, enabled: bool, unit: str):
-    """``iterable`` wrapped in a tqdm progress bar (notebooks and terminals) when ``enabled``."""
-    if not enabled:
-        return iterable
-    from tqdm.auto import tqdm
-
-    return tqdm(iterable, unit=unit)
-
-
 def _run_chunk(system, X, B, idx, marks, transient, settings, threads, weights, Q, G, quantity, keep) -> _Chunk:
     nc = len(idx)
     outcome0 = np.zeros(nc, dtype=np.int8)
@@ -777,14 +302,6 @@ def _run_chunk(system, X, B, idx, marks, transient, settings, threads, weights, 
         rates=rates, field_slopes=fslopes, final_log=logB[:, -1], final_dir=Y[:, 3:6].copy(), final_pos=Y[:, :3].copy(),
         outcome=outcome, div_sum=float(dens[ok, -1].sum()), series=logB if keep else None,
     )
-
-
-def _mean_rate(slopes: np.ndarray, win: tuple, what: str) -> RateEstimate:
-    """Mean of per-particle least-squares slopes with its standard error over particles."""
-    good = slopes[np.isfinite(slopes)]
-    err = float(np.std(good, ddof=1) / math.sqrt(len(good))) if len(good) > 1 else math.nan
-    return RateEstimate(float(good.mean()), err, win,
-                        f"mean over particles of the least-squares slope of {what}; standard error over particles")
 
 
 def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quantity, partial, seconds, keep,
@@ -856,8 +373,8 @@ def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quanti
     mean = s1 / n
     var = np.maximum(s2 / n - mean**2, 0.0)
     mean_err = np.sqrt(var / max(n - 1, 1))
-    lyap = _mean_rate(rates, win, "ln|d|")
-    field_rate = _mean_rate(fslopes, win, "ln|B|")
+    lyap = mean_rate(rates, win, "ln|d|")
+    field_rate = mean_rate(fslopes, win, "ln|B|")
     return StretchResult(
         times=times, p=orders, log_moments=np.stack(moments, axis=1), log_moments_stderr=np.stack(moments_err, axis=1),
         mean_log=mean, mean_log_stderr=mean_err, lyapunov=lyap, moment_rates=mrates, field_rate=field_rate,

@@ -29,5 +29,12 @@ def custom_flow(*args, **kwargs):
     return _f(*args, **kwargs)
 
 
+def custom_map(*args, **kwargs):
+    """See :func:`flowkit.flows.map_presets.custom_map` (a discrete-time map from formulas)."""
+    from flowkit.flows.map_presets import custom_map as _f
+
+    return _f(*args, **kwargs)
+
+
 __all__ = ["DOMAINS", "Flow", "FlowFamily", "flow", "preset_names", "preset_summary",
-           "lamb_flow", "surface_flow", "custom_flow"]
+           "lamb_flow", "surface_flow", "custom_flow", "custom_map"]

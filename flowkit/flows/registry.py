@@ -15,7 +15,7 @@ from flowkit.flows.base import Flow, FlowFamily
 
 
 def _builders() -> dict[str, tuple[Callable[[], FlowFamily], str]]:
-    from flowkit import maps  # noqa: F401  (registers the discrete-time map presets in EXTRA)
+    from flowkit.flows import map_presets  # noqa: F401  (registers the discrete-time map presets in EXTRA)
     from flowkit.flows import periodic, sphere, systems
 
     return {
@@ -38,13 +38,13 @@ _LOCK = threading.Lock()
 
 
 def preset_names(maps: bool = False) -> list[str]:
-    """Names of every preset flow; with ``maps=True`` also the discrete-time maps (``flowkit.maps``)."""
+    """Names of every preset flow; with ``maps=True`` also the discrete-time maps (``flowkit.flows.maps``)."""
     table = {**_builders(), **EXTRA}
     return sorted(k for k in table if maps or k not in _map_names())
 
 
 def _map_names() -> set[str]:
-    from flowkit.maps import MAP_PRESETS
+    from flowkit.flows.map_presets import MAP_PRESETS
 
     return set(MAP_PRESETS)
 
@@ -90,8 +90,8 @@ def flow(name: str, **params: float) -> Flow:
     if not isinstance(name, str):
         raise FlowkitError(f"flow name must be a string; got {type(name).__name__}")
     fam = family(name)
-    if fam.kind == "map":  # discrete-time maps (flowkit.maps) have their own type
-        from flowkit.maps import Map
+    if fam.kind == "map":  # discrete-time maps (flowkit.flows.maps) have their own type
+        from flowkit.flows.maps import Map
 
         return Map(fam, params)
     return Flow(fam, params)

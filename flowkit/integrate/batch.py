@@ -4,13 +4,16 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
 
 from flowkit.errors import FlowkitError
-from flowkit.flows.base import Flow
 from flowkit.integrate.outcomes import Outcome, outcome_counts
+
+if TYPE_CHECKING:  # annotations only: integrate/ must not import flows/ (flows use these drivers)
+    from flowkit.flows.base import Flow
 
 METHODS = {"dop853": 0, "rk4": 1}
 

@@ -10,13 +10,16 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
 
 from flowkit.errors import FlowkitError
-from flowkit.flows.base import Flow
 from flowkit.integrate.batch import BatchResult, prepare_states, thread_limit
+
+if TYPE_CHECKING:  # annotations only: integrate/ must not import flows/ (flows use these drivers)
+    from flowkit.flows.base import Flow
 
 SCHEMES = {
     2: "Strang composition a(h/2) b(h) a(h/2) of implicit-midpoint sub-steps",

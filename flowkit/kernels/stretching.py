@@ -1,7 +1,7 @@
 """Kernel template: iterate discrete-time maps with tangent vectors (field vectors).
 
 Compiled into every family module like the other templates, but meaningful only
-for map families (:mod:`flowkit.maps`), whose generated ``velocity`` is the image
+for map families (:mod:`flowkit.flows.maps`), whose generated ``velocity`` is the image
 F(x) and ``gradient`` the Jacobian DF. The state layout is the one of
 :mod:`flowkit.kernels.steppers`: position + k tangent columns. One iteration
 maps each column v -> DF(x) v (for a frozen-in field: B -> DF B, the discrete

@@ -1,6 +1,6 @@
 """The FTLE explorer: an FTLE map on a coordinate plane, redrawn as parameters move.
 
-Every map comes from :func:`flowkit.ftle.ftle_field` (variational equations
+Every map comes from :func:`flowkit.chaos.ftle_field` (variational equations
 with the exact gradient); the explorer keeps one image artist and updates it
 with ``set_data``. While a slider moves it shows a coarse preview grid; when
 the slider rests, the full grid (with a progress bar when it is large).
@@ -80,8 +80,8 @@ class FTLEExplorer(Explorer):
     # -- controls ----------------------------------------------------------------------
     @property
     def plane(self):
-        """The :class:`flowkit.ftle.GridPlane` the controls describe."""
-        from flowkit.ftle import GridPlane, default_span
+        """The :class:`flowkit.chaos.GridPlane` the controls describe."""
+        from flowkit.chaos.grid import GridPlane, default_span
 
         pc = self.plane_controls
         return GridPlane.coordinate(pc.normal.value, pc.offset.value, default_span(self._base))
@@ -94,7 +94,7 @@ class FTLEExplorer(Explorer):
         base = self._base
         if base.domain not in ("ball", "periodic"):
             raise FlowkitError(f"the FTLE explorer needs a bounded domain; flow '{base.name}' lives on "
-                               f"'{base.domain}' (use flowkit.ftle.ftle_field with a span instead)")
+                               f"'{base.domain}' (use flowkit.ftle_field with a span instead)")
         self._quiet = True
         try:
             self.plane_controls.reset(base, self._start["normal"], self._start["offset"])
@@ -111,7 +111,7 @@ class FTLEExplorer(Explorer):
         self._field(flow, 3)  # the centre of a 3x3 grid lies inside every domain
 
     def _field(self, flow: Flow, n: int, progress: bool = False):
-        from flowkit.ftle import ftle_field
+        from flowkit.chaos import ftle_field
 
         with warnings.catch_warnings():  # orbits that leave the domain are NaN and shown grey
             warnings.simplefilter("ignore", FlowkitNotice)
@@ -163,5 +163,5 @@ class FTLEExplorer(Explorer):
         return fig
 
     def save_data(self, path) -> None:
-        """The FTLE field with provenance (:meth:`flowkit.ftle.FTLEField.save`)."""
+        """The FTLE field with provenance (:meth:`flowkit.chaos.FTLEField.save`)."""
         self.result.save(path)

@@ -1,6 +1,6 @@
 """The field-growth explorer: how fast a frozen-in field grows, redrawn as parameters move.
 
-The curves are the ensemble statistics of :func:`flowkit.stretching.stretch`:
+The curves are the ensemble statistics of :func:`flowkit.fields.stretch`:
 the mean log-field <ln|B|> (slope: the largest Lyapunov exponent) and the log
 moments ln<|B|^p> (slopes: the generalized exponents L(p)), with the fitted
 rates in the legend. The explorer keeps one line per curve and updates it with
@@ -74,7 +74,7 @@ class GrowthExplorer(Explorer):
 
     # -- computing ------------------------------------------------------------------------
     def _run_stretch(self, flow: Flow, particles: int, time: float, samples: int, progress: bool = False):
-        from flowkit.stretching import stretch
+        from flowkit.fields import stretch
 
         return stretch(flow, particles, time, p=self.orders, samples=samples, progress=progress)
 
@@ -143,5 +143,5 @@ class GrowthExplorer(Explorer):
         return fig
 
     def save_data(self, path) -> None:
-        """The stretching statistics with provenance (:meth:`flowkit.stretching.StretchResult.save`)."""
+        """The stretching statistics with provenance (:meth:`flowkit.fields.StretchResult.save`)."""
         self.result.save(path)

@@ -51,7 +51,7 @@ def largest_lyapunov(flow: Flow, seed: int, point=None, time: float = 200.0, tra
     """
     from flowkit.chaos import random_seeds
     from flowkit.integrate.batch import IntegratorSettings
-    from flowkit.lyapunov import lyapunov_spectrum
+    from flowkit.chaos import lyapunov_spectrum
 
     if point is None:
         pts, _ = random_seeds(flow, 1, np.random.default_rng(seed))
@@ -78,10 +78,10 @@ def chaotic_fraction(flow: Flow, seed: int, n: int = 64, time: float = 100.0, th
 def line_stretching(flow: Flow, seed: int, time: float = 10.0, max_points: int = 200_000) -> dict:
     """Exponential growth rate of a material line's length (adaptive point insertion).
 
-    The default line is the generic segment of :func:`flowkit.lines.default_curve`;
+    The default line is the generic segment of :func:`flowkit.fields.curves.default_curve`;
     the rate is the slope of ln L over the fit window with its block error bar.
     """
-    from flowkit.lines import material_line
+    from flowkit.fields import material_line
 
     res = material_line(flow, time, max_points=max_points, threads=1)
     return {"value": float(res.rate.value), "stderr": float(res.rate.stderr), "stopped": res.stopped,

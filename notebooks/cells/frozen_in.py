@@ -17,7 +17,7 @@ net flux grows more slowly than the unsigned one.
     code(QUICK),
     code("""
 from flowkit.plot import plot_growth
-from flowkit.stretching import stretch
+from flowkit.fields import stretch
 
 droplet = flowkit.flow("stf", rotation=0.3)   # the stirring pattern of the droplet
 res = stretch(droplet, size(4000, 120), size(30.0, 6.0), p=(0.5, 1.0, 2.0), samples=size(120, 24))
@@ -60,8 +60,7 @@ droplet's equatorial disc separates stretching (unsigned flux) from cancellation
 (net flux).
 """),
     code("""
-from flowkit.flux import flux_growth
-from flowkit.lines import material_line
+from flowkit.fields import flux_growth, material_line
 
 line = material_line(droplet, size(12.0, 3.0), max_points=size(400_000, 20_000))
 flux = flux_growth(droplet, size(10.0, 2.0), samples=size(4000, 200))

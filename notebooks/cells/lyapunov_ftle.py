@@ -20,7 +20,7 @@ D 16, 1985, 285-317), and the exponents add up to the divergence,
 -(sigma + 1 + beta) = -13.667 exactly.
 """),
     code("""
-from flowkit.lyapunov import lyapunov_spectrum
+from flowkit.chaos import lyapunov_spectrum
 from flowkit.plot import plot_lyapunov_running
 
 lorenz = lyapunov_spectrum(flowkit.flow("lorenz"), [1.0, 1.0, 20.0], size(2000.0, 200.0), transient=size(50.0, 10.0))
@@ -52,7 +52,7 @@ ridges attract it (filaments line up along them). The gradient comes from the
 variational equations, so no finite-difference spacing is involved.
 """),
     code("""
-from flowkit.ftle import GridPlane, ftle_field
+from flowkit.chaos import GridPlane, ftle_field
 from flowkit.plot import plot_ftle
 
 plane = GridPlane.coordinate("y", 0.0, (-1, 1, -1, 1))
