@@ -255,3 +255,65 @@ def test_bad_curves_are_refused_with_clear_errors():
         T.ribbon(circle(), tangent, n=32)
     with pytest.raises(FlowkitError, match="exactly one of"):
         T.ribbon(circle())
+
+
+# -- helicity -------------------------------------------------------------------------------------
+def test_abc_helicity_equals_its_energy():
+    """ABC with A = B = C = 1 is a Beltrami field, curl u = u, so int u . curl u dV = int |u|^2 dV
+    = 3 (2 pi)^3 (exact identity); the numerical rule agrees."""
+    import flowkit
+    from flowkit.topology.helicity import kinetic_helicity
+
+    f = flowkit.flow("abc", A=1, B=1, C=1)
+    exact = kinetic_helicity(f)
+    assert exact.method == "exact (sympy)" and exact.value == pytest.approx(3 * (2 * np.pi) ** 3, rel=1e-14)
+    num = kinetic_helicity(f, method="numerical", resolution=10)
+    assert num.value == pytest.approx(3 * (2 * np.pi) ** 3, rel=1e-12) and num.energy == pytest.approx(num.value)
+
+
+def test_ball_helicity_exact_against_scipy_quadrature():
+    """Exact (sympy monomial moments) against scipy.integrate.tplquad in spherical coordinates."""
+    import flowkit
+    from flowkit.topology.helicity import _density, kinetic_helicity
+
+    f = flowkit.flow("hill", strength=1.0, swirl=0.7)
+    exact = kinetic_helicity(f)
+
+    def integrand(ph, c, r):
+        s = math.sqrt(1 - c * c)
+        X = np.array([[r * s * math.cos(ph), r * s * math.sin(ph), r * c]])
+        return _density(f, X, 0.0)[0][0] * r * r
+
+    ref = scipy.integrate.tplquad(integrand, 0, 1, -1, 1, 0, 2 * np.pi, epsabs=1e-10)[0]
+    assert exact.value == pytest.approx(ref, rel=1e-8)
+    num = kinetic_helicity(flowkit.flow("stf", rotation=0.3), method="numerical", resolution=8)
+    assert num.value == pytest.approx(kinetic_helicity(flowkit.flow("stf", rotation=0.3)).value, rel=1e-12)
+
+
+def test_magnetic_helicity_of_beltrami_field_and_of_a_dynamo_mode():
+    """B = ABC field: curl B = B, so A = B (Coulomb gauge) and int A . B dV = int |B|^2 dV (exact).
+    A growing ABC mode obeys |H_M| <= int |B|^2 dV / k_min with k_min = 1 in the 2 pi box
+    (Sel. Math. Sov. 5, 1986, 327; cited from memory), and the helicity density plane is finite."""
+    import flowkit
+    from flowkit.topology.helicity import kinetic_helicity, mode_helicity
+
+    n = 16
+    g = 2 * np.pi * np.arange(n) / n
+    X, Y, Z = np.meshgrid(g, g, g, indexing="ij")
+    B = np.stack([np.sin(Z) + np.cos(Y), np.sin(X) + np.cos(Z), np.sin(Y) + np.cos(X)])
+    h = mode_helicity(B)
+    assert h.value == pytest.approx(h.energy, rel=1e-13) and h.energy == pytest.approx(3 * (2 * np.pi) ** 3)
+    assert mode_helicity(B, "current").value == pytest.approx(h.energy, rel=1e-13)
+    res = flowkit.growth_rate(flowkit.flow("abc"), rm=12, resolution=12, check_resolution=None)
+    hm = mode_helicity(res)
+    assert 0 < abs(hm.value) <= hm.energy
+    d = kinetic_helicity(flowkit.flow("abc"), plane=("z", 0.5), plane_points=16).density
+    assert d.shape == (16, 16) and np.all(np.isfinite(d))
+
+
+def test_helicity_refuses_unbounded_flows():
+    import flowkit
+    from flowkit.topology.helicity import kinetic_helicity
+
+    with pytest.raises(FlowkitError, match="bounded domain"):
+        kinetic_helicity(flowkit.flow("lorenz"))
