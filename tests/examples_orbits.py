@@ -23,3 +23,12 @@ def hill_scan():
     from flowkit.sections.scan import scan_periodic_orbits
 
     return scan_periodic_orbits(_hill(), _MERIDIAN, region=(0.6, 0.8, -0.1, 0.1), grid=2, max_period=1)
+
+
+@example("Manifold")
+def stf_saddle_manifold():
+    from flowkit.sections.manifolds import invariant_manifolds
+    from flowkit.sections.periodic import find_periodic_orbit
+
+    o = find_periodic_orbit(flowkit.flow("stf", rotation=1.0), (-0.93, 0.0), _MERIDIAN, period=2)
+    return invariant_manifolds(o, length=0.3, max_points=300)

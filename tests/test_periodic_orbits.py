@@ -138,3 +138,34 @@ def test_bad_input_and_failures_are_clear():
     # no swirl: nothing crosses the meridian plane y = 0, so there is no return
     none = find_periodic_orbit(flowkit.flow("hill", swirl=0.0), (0.5, 0.1), pl, max_time=5.0)
     assert not none.converged and "did not return" in none.message
+
+
+@pytest.fixture(scope="module")
+def stf_saddle():
+    # the stirred droplet (stf, rotation 1) on the plane y = 0: a period-2 saddle near the wall
+    return find_periodic_orbit(flowkit.flow("stf", rotation=1.0), (-0.93, 0.0), Plane((0, 1, 0), 0.0, "+"), period=2)
+
+
+def test_saddle_of_incompressible_flow_has_unit_determinant(stf_saddle):
+    o = stf_saddle
+    assert o.converged and o.type == "hyperbolic" and o.trace > 2
+    assert abs(o.det - 1.0) < 1e-9  # flux measure preserved and the point returns to itself
+    lam = o.eigenvalues.real
+    assert lam[0] * lam[1] == pytest.approx(1.0, abs=1e-9) and o.residue < 0  # reciprocal pair, R < 0
+
+
+def test_manifold_points_map_onto_the_manifold(stf_saddle):
+    from flowkit.sections.manifolds import invariant_manifolds, map_for, polyline_distance
+
+    man = invariant_manifolds(stf_saddle, length=0.8, max_points=1500)
+    rm = map_for(stf_saddle)
+    assert man.n_branches == 4 and man.intersections.shape[1] == 2
+    for i in range(man.n_branches):
+        c, lev = man.curve(i), man.level[man.branch == i]
+        inner = (lev[:-1] >= 0) & (lev[1:] >= 0) & (lev[1:] < lev.max())
+        mid = 0.5 * (c[:-1][inner] + c[1:][inner])  # points of the drawn curve between computed ones
+        img = rm.apply(mid, 2, backward=man.branch_kind[i] == "stable", jacobian=False)
+        assert img.ok.all()
+        assert polyline_distance(img.xi, c).max() < 1e-3
+    back = flowkit.load(man.save(_tmp("manifold.npz")))
+    assert np.array_equal(back.xi, man.xi, equal_nan=True)

@@ -7,4 +7,5 @@ MODULES: dict[str, str] = {
     "Section": "flowkit.sections.result",
     "PeriodicOrbit": "flowkit.sections.orbit_results",
     "OrbitSet": "flowkit.sections.orbit_results",
+    "Manifold": "flowkit.sections.orbit_results",
 }

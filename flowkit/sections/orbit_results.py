@@ -220,3 +220,78 @@ class OrbitSet(Result):
         rows = [("orbits", len(self), None)]
         rows += [(k, v, None) for k, v in sorted(self.counts().items())]
         return rows[:8]
+
+
+@dataclass(eq=False)
+class Manifold(Result):
+    """Branches of the stable and unstable manifolds of one hyperbolic periodic point.
+
+    Attributes
+    ----------
+    xi : (M, 2)
+        Points of every branch in order along it; ``branch`` (M,) says which branch.
+    level, label : (M,)
+        Iteration level j and fundamental-segment label s of each point (point = P^(j m) q(s)).
+    branch_kind : (B,) str
+        "unstable" or "stable" per branch; ``branch_side`` +1/-1 the side of the eigenvector.
+    intersections : (K, 2)
+        Homoclinic points (crossings of unstable and stable branches away from the point).
+    """
+
+    _ARRAYS = ("xi", "branch", "level", "label", "branch_kind", "branch_side", "point", "intersections")
+    _DIMS = {"xi": ("point_index", "coord"), "branch": ("point_index",), "level": ("point_index",),
+             "label": ("point_index",)}
+    xi: np.ndarray
+    branch: np.ndarray
+    level: np.ndarray
+    label: np.ndarray
+    branch_kind: np.ndarray
+    branch_side: np.ndarray
+    point: np.ndarray
+    intersections: np.ndarray
+    period: int
+    eigenvalue_unstable: float
+    eigenvalue_stable: float
+    delta: float
+    provenance: dict = field(default_factory=dict)
+
+    @classmethod
+    def from_branches(cls, parts, p, orbit, prov) -> "Manifold":
+        from flowkit.sections.manifolds import homoclinic_points
+
+        out = cls(xi=np.concatenate([q[2] for q in parts]),
+                  branch=np.repeat(np.arange(len(parts)), [len(q[2]) for q in parts]).astype(np.int64),
+                  level=np.concatenate([q[3] for q in parts]).astype(np.int64),
+                  label=np.concatenate([q[4] for q in parts]),
+                  branch_kind=np.array([q[0] for q in parts], dtype=str),
+                  branch_side=np.array([q[1] for q in parts]), point=np.asarray(p, float),
+                  intersections=np.zeros((0, 2)), period=int(orbit.period),
+                  eigenvalue_unstable=float(orbit.eigenvalues[0].real),
+                  eigenvalue_stable=float(orbit.eigenvalues[-1].real), delta=float(prov["delta"]), provenance=prov)
+        out.intersections = homoclinic_points(out)
+        return out
+
+    @property
+    def n_branches(self) -> int:
+        return int(self.branch_kind.shape[0])
+
+    def curve(self, i: int) -> np.ndarray:
+        """Points (n, 2) of branch ``i`` in order from the periodic point outward."""
+        return self.xi[self.branch == i]
+
+    def summary(self) -> dict:
+        from flowkit.results import plain
+
+        lengths = [float(np.sum(np.linalg.norm(np.diff(self.curve(i), axis=0), axis=1)))
+                   for i in range(self.n_branches)]
+        return plain({"point": self.point.tolist(), "period": self.period,
+                      "eigenvalues": [self.eigenvalue_unstable, self.eigenvalue_stable],
+                      "branches": [{"kind": str(k), "side": float(s), "points": int(np.sum(self.branch == i)),
+                                    "length": lengths[i]}
+                                   for i, (k, s) in enumerate(zip(self.branch_kind, self.branch_side))],
+                      "homoclinic_points": int(self.intersections.shape[0])})
+
+    def headline(self):
+        return [("period", self.period, None), ("lambda_u", self.eigenvalue_unstable, None),
+                ("branches", self.n_branches, None), ("points", int(self.xi.shape[0]), None),
+                ("homoclinic points", int(self.intersections.shape[0]), None)]
