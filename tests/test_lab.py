@@ -304,3 +304,80 @@ def test_dynamo_explorer_one_vertical_wavenumber_and_exports(tmp_path):
         DynamoExplorer("abc", rm=0.0)
     with pytest.raises(FlowkitError, match="`resolution`"):
         DynamoExplorer("abc", resolution=10)
+
+
+# -- what a new user sees: crossing direction, axis names, colours, ticks, log sliders -------------
+def test_direction_control_keeps_the_crossings_it_names():
+    ex = SectionExplorer("stf", params={"rotation": 0.3}, **SMALL)
+    ex.update()
+    pc = ex.plane_controls
+    assert pc.direction.value == "both" and "crossings: both directions" in ex.ax.get_title()
+    both = ex.result
+    vy = ex.flow.velocity(both.points)[:, 1]
+    assert (vy > 0).any() and (vy < 0).any()  # both sides of y = 0 are crossed
+    pc.direction.value = "+"
+    ex.flush()
+    assert "crossings: y increasing (+)" in ex.ax.get_title()
+    # "+" means y increases through the plane: the velocity's y component is positive at every crossing
+    assert np.all(ex.flow.velocity(ex.result.points)[:, 1] > 0)
+    ref = poincare_section(ex.flow, ex.seeds, Plane((0, 1, 0), 0.0, "+"), crossings=40)
+    np.testing.assert_allclose(ex.result.points, ref.points, atol=1e-12)
+    pc.direction.value = "-"
+    ex.flush()
+    assert np.all(ex.flow.velocity(ex.result.points)[:, 1] < 0)
+    ex.close()
+
+
+@pytest.mark.parametrize("normal,labels", [("x", ("y", "z")), ("y", ("x", "z")), ("z", ("x", "y"))])
+def test_coordinate_planes_are_drawn_in_their_own_coordinates(explorer, normal, labels):
+    explorer.plane_controls.normal.value = normal
+    explorer.flush()
+    assert (explorer.ax.get_xlabel(), explorer.ax.get_ylabel()) == labels
+    # right is +first coordinate, up is +second: a point at (u, v) = (0.2, 0.5) has those coordinates
+    p = explorer.view.point(0.2, 0.5)
+    assert p["xyz".index(labels[0])] == pytest.approx(0.2) and p["xyz".index(labels[1])] == pytest.approx(0.5)
+    explorer.plane_controls.normal.value = "y"
+    explorer.flush()
+
+
+def test_orbit_palette_keeps_thirty_orbits_apart():
+    from flowkit.lab.palette import orbit_palette, srgb_to_lab
+
+    # CIE L*a*b* of sRGB red and white (handbook values, common practice, no source)
+    np.testing.assert_allclose(srgb_to_lab([1.0, 0.0, 0.0]), [53.24, 80.09, 67.20], atol=0.05)
+    np.testing.assert_allclose(srgb_to_lab([1.0, 1.0, 1.0]), [100.0, 0.0, 0.0], atol=0.02)
+    lab = srgb_to_lab(orbit_palette(32))
+    d = np.linalg.norm(lab[:, None] - lab[None], axis=-1)[np.triu_indices(32, 1)]
+    # a colour difference above ~10 is plainly visible side by side; tab20's closest pair is about 17
+    assert d.min() > 25
+
+
+@pytest.mark.parametrize("flow", ["stf", "abc", "circular"])
+def test_tick_labels_never_touch_at_the_default_size(flow):
+    ex = SectionExplorer(flow, **SMALL)
+    ex.update()
+    ex.fig.canvas.draw()
+    renderer = ex.fig.canvas.get_renderer()
+    for axis, lo, hi in ((ex.ax.xaxis, *ex.ax.get_xlim()), (ex.ax.yaxis, *ex.ax.get_ylim())):
+        shown = [t for t, loc in zip(axis.get_ticklabels(), axis.get_ticklocs()) if lo <= loc <= hi and t.get_text()]
+        boxes = [t.get_window_extent(renderer) for t in shown]
+        assert len(boxes) >= 3
+        for a, b in zip(boxes, boxes[1:]):
+            gap = b.x0 - a.x1 if axis is ex.ax.xaxis else b.y0 - a.y1
+            assert gap >= 4, f"{flow}: tick labels {[t.get_text() for t in shown]} only {gap:.1f} px apart"
+    ex.close()
+
+
+def test_log_sliders_keep_the_starting_value_and_ignore_rounding_echoes():
+    ex = FTLEExplorer("stf", time=5.0, resolution=6, preview_resolution=4)
+    s = ex.time_slider
+    # the browser snaps the exponent to min + k * step: 5.0 must be on that grid
+    k = round((np.log10(5.0) - s.min) / s.step)
+    assert 10 ** (s.min + k * s.step) == pytest.approx(5.0, rel=1e-12)
+    calls = []
+    ex.changed = lambda: calls.append(1)
+    s.value = 5.0 * (1 + 1e-13)  # a round-trip echo, not a move
+    assert calls == []
+    s.value = 6.0
+    assert calls == [1]
+    ex.close()

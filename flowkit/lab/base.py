@@ -36,7 +36,7 @@ import numpy as np
 import flowkit
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
-from flowkit.lab.controls import Debouncer, param_sliders
+from flowkit.lab.controls import Debouncer, moved, param_sliders
 
 #: Matplotlib settings of exported paper figures (small single-column figures).
 PAPER_STYLE = {"font.size": 8, "axes.titlesize": 8, "axes.labelsize": 8, "xtick.labelsize": 7,
@@ -144,8 +144,8 @@ class Explorer:
         self.sliders = param_sliders(base, self._on_param)
         self.sliders_box.children = tuple(self.sliders.values())
 
-    def _on_param(self, _change=None) -> None:
-        if not self._quiet:
+    def _on_param(self, change=None) -> None:
+        if not self._quiet and (change is None or moved(change)):
             self.changed()
 
     def changed(self) -> None:

@@ -71,6 +71,31 @@ def param_sliders(flow, on_change: Callable | None = None) -> dict:
     return sliders
 
 
+def log_slider(value: float, low: float, high: float, step: float, description: str):
+    """A ``FloatLogSlider`` (base 10) whose grid of exponents passes through ``value`` itself.
+
+    The browser snaps a log slider's exponent to ``min + k * step``; with ``min`` on that
+    grid through log10(value) the starting value stays as given (5.0 stays 5.0 instead
+    of becoming 10**0.70 = 5.01 and triggering a recomputation). ``low``/``high`` bound
+    the exponent range (powers of ten), widened by at most one step to fit the grid.
+    """
+    import ipywidgets as w
+
+    e = math.log10(value)
+    lo = e - math.floor((e - low) / step + 1e-9) * step
+    hi = e + math.floor((high - e) / step + 1e-9) * step
+    return w.FloatLogSlider(value=value, base=10, min=lo, max=hi, step=step, description=description,
+                            continuous_update=True, layout=w.Layout(width="95%"))
+
+
+def moved(change, rel: float = 1e-9) -> bool:
+    """Whether a slider's value change is a real move (not the browser re-sending a rounded value)."""
+    old, new = change.get("old"), change.get("new")
+    if not isinstance(old, (int, float)) or not isinstance(new, (int, float)):
+        return True
+    return abs(new - old) > rel * max(abs(old), abs(new))
+
+
 class Debouncer:
     """Coalesce rapid calls of ``fn`` (see the module notes for the two modes).
 

@@ -16,7 +16,7 @@ import numpy as np
 from flowkit.errors import FlowkitError, FlowkitNotice
 from flowkit.flows.base import Flow
 from flowkit.lab.base import EXPLORER_PRESETS, Explorer, axis_name, finite_range
-from flowkit.lab.controls import PlaneControls
+from flowkit.lab.controls import PlaneControls, log_slider, moved
 
 #: Grid points above which the full map shows a progress bar.
 _LONG_WORK = 128 * 128
@@ -65,8 +65,7 @@ class FTLEExplorer(Explorer):
         self._start = {"normal": normal, "offset": float(offset)}
         self.preview_resolution = int(preview_resolution)
         self.plane_controls = PlaneControls()
-        self.time_slider = w.FloatLogSlider(value=time, base=10, min=-1, max=2.5, step=0.02, description="T",
-                                            continuous_update=True, layout=w.Layout(width="95%"))
+        self.time_slider = log_slider(float(time), -1, 2.5, 0.02, "T")
         self.direction_picker = w.ToggleButtons(options=["forward", "backward"], value=direction,
                                                 description="time", style={"button_width": "90px"})
         self.resolution_box = w.BoundedIntText(value=int(resolution), min=2, max=2048, step=16,
@@ -102,8 +101,8 @@ class FTLEExplorer(Explorer):
             self._quiet = False
         self.result = None
 
-    def _on_control(self, _change) -> None:
-        if not self._quiet:
+    def _on_control(self, change) -> None:
+        if not self._quiet and moved(change):
             self.changed()
 
     # -- computing ---------------------------------------------------------------------

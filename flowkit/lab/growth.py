@@ -16,6 +16,7 @@ import numpy as np
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
 from flowkit.lab.base import EXPLORER_PRESETS, Explorer
+from flowkit.lab.controls import log_slider, moved
 
 #: Particles x samples above which the full run shows a progress bar.
 _LONG_WORK = 200_000
@@ -58,12 +59,11 @@ class GrowthExplorer(Explorer):
         self.orders = tuple(float(q) for q in p)
         self.samples = int(samples)
         self.preview_particles = int(preview_particles)
-        self.time_slider = w.FloatLogSlider(value=time, base=10, min=0, max=3, step=0.02, description="T",
-                                            continuous_update=True, layout=w.Layout(width="95%"))
+        self.time_slider = log_slider(float(time), 0, 3, 0.02, "T")
         self.particles_box = w.BoundedIntText(value=int(particles), min=1, max=10_000_000, step=100,
                                               description="particles")
         super().__init__(flow, params=params, presets=presets, **kw)
-        self.time_slider.observe(lambda _c: self.changed(), names="value")
+        self.time_slider.observe(lambda c: self.changed() if moved(c) else None, names="value")
         self.particles_box.observe(lambda _c: self._full.trigger(), names="value")
 
     def _extra_controls(self) -> list:
