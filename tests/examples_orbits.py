@@ -32,3 +32,17 @@ def stf_saddle_manifold():
 
     o = find_periodic_orbit(flowkit.flow("stf", rotation=1.0), (-0.93, 0.0), _MERIDIAN, period=2)
     return invariant_manifolds(o, length=0.3, max_points=300)
+
+
+@example("ContinuationCurve")
+def hill_core_curve():
+    from flowkit.sections.continuation import continue_orbit
+
+    return continue_orbit(_hill(), (0.7, 0.0), "swirl", [1.0, 1.1, 1.2], _MERIDIAN)
+
+
+@example("RotationProfile")
+def hill_rotation_profile():
+    from flowkit.sections.rotation import rotation_profile
+
+    return rotation_profile(_hill(), (0.7071067811865476, 0.0), _MERIDIAN, seeds=3, iterations=20)

@@ -169,3 +169,40 @@ def test_manifold_points_map_onto_the_manifold(stf_saddle):
         assert polyline_distance(img.xi, c).max() < 1e-3
     back = flowkit.load(man.save(_tmp("manifold.npz")))
     assert np.array_equal(back.xi, man.xi, equal_nan=True)
+
+
+def test_continuation_follows_the_exact_trace_of_the_hill_core():
+    # core trace 2 cos(2 pi sqrt(2) U / Omega) (exact, from the stream function); it only touches -2 at
+    # Omega = 2 sqrt(2) U (an integrable 1:2 resonance), which is no crossing and must not be reported
+    from flowkit.sections.continuation import continue_orbit
+
+    f = flowkit.flow("hill", strength=U_HILL, swirl=2.5)
+    curve = continue_orbit(f, (0.7, 0.0), "swirl", np.linspace(2.5, 3.1, 4), Plane((0, 1, 0), 0.0, "+"))
+    assert curve.converged.all() and set(curve.type) == {"elliptic"}
+    assert np.allclose(curve.trace, 2 * np.cos(2 * np.pi * math.sqrt(2) * U_HILL / curve.values), atol=1e-8)
+    assert np.allclose(curve.xi, [[math.sqrt(0.5), 0.0]] * 4, atol=1e-8)
+    assert curve.bifurcations == []
+
+
+def test_continuation_detects_where_the_saddle_turns_elliptic():
+    from flowkit.sections.continuation import continue_orbit
+
+    f = flowkit.flow("stf", rotation=2.6)
+    curve = continue_orbit(f, (-0.81, 0.0), "rotation", [2.6, 2.8, 3.0], Plane((0, 1, 0), 0.0, "+"), period=2)
+    assert list(curve.type) == ["hyperbolic", "hyperbolic", "elliptic"]
+    (bif,) = curve.bifurcations
+    assert bif["kind"].startswith("tangent") and 2.8 < bif["parameter"] < 3.0
+    assert abs(bif["trace"] - 2.0) < 1e-3  # DP - I is singular there, so the orbit is only known to ~sqrt(tol)
+
+
+def test_rotation_profile_matches_poloidal_periods_of_hill_vortex():
+    # rotation per return = (2 pi / Omega) / T_p(psi) modulo 1, T_p from the stream function (scipy)
+    from flowkit.sections.rotation import rotation_profile
+
+    f = flowkit.flow("hill", strength=U_HILL, swirl=OMEGA)
+    prof = rotation_profile(f, (math.sqrt(0.5), 0.0), Plane((0, 1, 0), 0.0, "+"), radius=0.2, seeds=4,
+                            iterations=150)
+    for d, r in zip(prof.distance, prof.rotation):
+        w = (2 * math.pi / OMEGA) / _poloidal_period(math.sqrt(0.5) + d)
+        w = w - round(w)
+        assert min(abs(r - w), abs(r + w)) < 2e-3

@@ -17,10 +17,13 @@ from flowkit.sections.check import ToleranceCheck, tolerance_check
 from flowkit.sections.compute import poincare_section, warm_sections
 from flowkit.sections.geometry import Plane, Stroboscopic
 from flowkit.sections.result import Section
+from flowkit.sections.continuation import continue_orbit
 from flowkit.sections.manifolds import invariant_manifolds
 from flowkit.sections.periodic import find_periodic_orbit
 from flowkit.sections.returnmap import ReturnMap
+from flowkit.sections.rotation import rotation_profile
 from flowkit.sections.scan import scan_periodic_orbits
 
 __all__ = ["Plane", "Stroboscopic", "Section", "poincare_section", "tolerance_check", "ToleranceCheck", "warm_sections",
-           "ReturnMap", "find_periodic_orbit", "scan_periodic_orbits", "invariant_manifolds"]
+           "ReturnMap", "find_periodic_orbit", "scan_periodic_orbits", "invariant_manifolds",
+           "continue_orbit", "rotation_profile"]

@@ -295,3 +295,72 @@ class Manifold(Result):
         return [("period", self.period, None), ("lambda_u", self.eigenvalue_unstable, None),
                 ("branches", self.n_branches, None), ("points", int(self.xi.shape[0]), None),
                 ("homoclinic points", int(self.intersections.shape[0]), None)]
+
+
+@dataclass(eq=False)
+class ContinuationCurve(Result):
+    """A periodic orbit followed in a parameter: its point, trace and type at each value.
+
+    ``bifurcations`` lists where tr DP^k crossed +2 (tangent) or -2 (period doubling).
+    """
+
+    _ARRAYS = ("values", "xi", "trace", "det", "residue", "period_time", "converged", "residual", "type")
+    _DIMS = {"values": ("step",), "xi": ("step", "coord"), "trace": ("step",), "det": ("step",),
+             "residue": ("step",), "period_time": ("step",), "converged": ("step",), "residual": ("step",),
+             "type": ("step",)}
+    values: np.ndarray
+    xi: np.ndarray
+    trace: np.ndarray
+    det: np.ndarray
+    residue: np.ndarray
+    period_time: np.ndarray
+    converged: np.ndarray
+    residual: np.ndarray
+    type: np.ndarray
+    parameter: str
+    period: int
+    bifurcations: list
+    provenance: dict = field(default_factory=dict)
+
+    @classmethod
+    def from_rows(cls, rows, events, parameter, period, prov) -> "ContinuationCurve":
+        types = [_type_from(r[2], r[3]) if r[5] else "" for r in rows]
+        return cls(values=np.array([r[0] for r in rows], float), xi=np.array([r[1] for r in rows], float),
+                   trace=np.array([r[2] for r in rows], float), det=np.array([r[3] for r in rows], float),
+                   residue=(2.0 - np.array([r[2] for r in rows], float)) / 4.0,
+                   period_time=np.array([r[4] for r in rows], float),
+                   converged=np.array([r[5] for r in rows], bool), residual=np.array([r[6] for r in rows], float),
+                   type=np.array(types, dtype=str), parameter=parameter, period=int(period),
+                   bifurcations=[dict(e) for e in events], provenance=prov)
+
+    def summary(self) -> dict:
+        from flowkit.results import plain
+
+        return plain({"parameter": self.parameter, "period": self.period, "steps": int(self.values.size),
+                      "followed_to": float(self.values[self.converged][-1]) if self.converged.any() else None,
+                      "lost": bool(not self.converged[-1]), "bifurcations": self.bifurcations,
+                      "types": sorted(set(str(t) for t in self.type if t))})
+
+    def headline(self):
+        rows = [("parameter", self.parameter, None), ("steps", int(self.values.size), None),
+                ("bifurcations", len(self.bifurcations), None)]
+        rows += [(b["kind"], b["parameter"], None) for b in self.bifurcations[:4]]
+        return rows
+
+
+def _type_from(tr: float, det: float, tol: float = 1e-6) -> str:
+    """Type of a 2 x 2 map from its trace and determinant (area-preserving when det = 1)."""
+    if abs(det - 1.0) <= 1e-6:
+        if abs(abs(tr) - 2.0) <= tol * max(1.0, abs(tr)):
+            return "parabolic"
+        return "elliptic" if abs(tr) < 2.0 else "hyperbolic"
+    disc = tr * tr - 4 * det
+    if disc < 0:
+        return "attracting" if det < 1 else "repelling"
+    l1, l2 = (tr + np.sqrt(disc)) / 2, (tr - np.sqrt(disc)) / 2
+    big, small = max(abs(l1), abs(l2)), min(abs(l1), abs(l2))
+    if big < 1:
+        return "attracting"
+    if small > 1:
+        return "repelling"
+    return "hyperbolic"
