@@ -118,6 +118,7 @@ def plot_section(
     colorbar: bool = True,
     rasterized: bool = True,
     labels: bool = True,
+    skeleton=None,
     **scatter_kw,
 ) -> list:
     """Draw a Poincaré section on ``ax``; return the artists.
@@ -142,6 +143,9 @@ def plot_section(
         Rasterize the point layer (keep True for PDFs with many points).
     labels : bool
         Label the axes with the in-plane directions and set equal aspect.
+    skeleton : PeriodicOrbit, OrbitSet, Manifold or a list of them, optional
+        Periodic orbits marked by type and manifolds drawn as curves on top
+        (:mod:`flowkit.sections.plot_skeleton` names the marks; they go in the legend).
     **scatter_kw
         Passed to :meth:`matplotlib.axes.Axes.scatter`.
 
@@ -189,6 +193,10 @@ def plot_section(
         ax.set_xlabel(f"u along {_vec_label(e1)}")
         ax.set_ylabel(f"v along {_vec_label(e2)}")
         ax.set_aspect("equal", adjustable="box")
+    if skeleton is not None:
+        from flowkit.sections.plot_skeleton import plot_skeleton
+
+        artists += plot_skeleton(ax, skeleton)
     return artists
 
 

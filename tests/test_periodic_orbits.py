@@ -206,3 +206,18 @@ def test_rotation_profile_matches_poloidal_periods_of_hill_vortex():
         w = (2 * math.pi / OMEGA) / _poloidal_period(math.sqrt(0.5) + d)
         w = w - round(w)
         assert min(abs(r - w), abs(r + w)) < 2e-3
+
+
+def test_cli_periodic_json(capsys, tmp_path):
+    import json
+
+    from flowkit.cli import main
+
+    assert main(["periodic", "hill", "--set", "swirl=1", "--start", "0.69,0.02", "--out", str(tmp_path / "o.json"),
+                 "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["orbit"]["converged"] and out["orbit"]["type"] == "elliptic"
+    assert out["orbit"]["period_time"] == pytest.approx(2 * math.pi, rel=1e-10)  # return time 2 pi / Omega
+    assert flowkit.load(out["out"]).type == "elliptic"
+    assert main(["periodic", "hill", "--set", "swirl=1", "--start", "1.3,0", "--json"]) == 2
+    assert "outside the domain" in json.loads(capsys.readouterr().out)["error"]
