@@ -221,3 +221,13 @@ def test_cli_periodic_json(capsys, tmp_path):
     assert flowkit.load(out["out"]).type == "elliptic"
     assert main(["periodic", "hill", "--set", "swirl=1", "--start", "1.3,0", "--json"]) == 2
     assert "outside the domain" in json.loads(capsys.readouterr().out)["error"]
+
+
+def test_shooting_finds_the_lorenz_orbit_with_a_unit_multiplier(lorenz_ab):
+    from flowkit.sections.shooting import shoot_periodic_orbit
+
+    # period unknown: start from a rough guess; same published period (Nonlinearity 16, 2003, 1035)
+    sh = shoot_periodic_orbit(flowkit.flow("lorenz"), (-13.7, -19.5), 1.5, LORENZ_Z)
+    assert sh.converged and abs(sh.period - 1.5586522) < 1e-7
+    assert np.min(np.abs(sh.multipliers - 1.0)) < 1e-7  # the direction along the flow (exact)
+    assert np.prod(np.abs(sh.multipliers)) == pytest.approx(math.exp(-(41 / 3) * sh.period), rel=1e-6)
