@@ -10,7 +10,7 @@ import numba
 import numpy as np
 
 from flowkit.errors import FlowkitError
-from flowkit.integrate.outcomes import Outcome, outcome_counts
+from flowkit.integrate.outcomes import Outcome, outcome_counts, outcome_notes
 
 if TYPE_CHECKING:  # annotations only: integrate/ must not import flows/ (flows use these drivers)
     from flowkit.flows.base import Flow
@@ -32,6 +32,10 @@ class IntegratorSettings:
         Upper bound on the DOP853 step (default inf).
     max_steps : int
         Step budget per trajectory for DOP853 (outcome "step budget" if reached).
+        The default, 10 million, is about 3 s of one core for a streamline and
+        about 20 s with the full deformation gradient (12 components), so one
+        orbit cannot grind for minutes unnoticed; a stiff orbit ends far sooner
+        with outcome "stiff" (DOP853's stiffness test).
     step : float
         RK4 step size (required for ``method="rk4"``).
     """
@@ -88,6 +92,11 @@ class BatchResult:
     def ok(self) -> np.ndarray:
         """Mask of trajectories that reached the end time."""
         return self.outcome == Outcome.FINISHED
+
+    @property
+    def notes(self) -> list[str]:
+        """What to do about orbits that ended early (stiff, step budget, ...), one sentence each."""
+        return outcome_notes(self.outcome)
 
 
 def check_seeds(flow: Flow, seeds, name: str = "seeds") -> np.ndarray:
