@@ -39,7 +39,8 @@ def map_for(orbit, flow=None) -> ReturnMap:
     else:
         view = Plane(sec["view_normal"], 0.0, "both", axis1=sec["e1"])
         section = Stroboscopic(sec["period"], sec["phase"], view)
-    return ReturnMap(flow, section, t0=rec["t0"], rtol=rec["rtol"], atol=rec["atol"], max_time=rec["max_time"])
+    return ReturnMap(flow, section, t0=rec["t0"], rtol=rec["rtol"], atol=rec["atol"], max_time=rec["max_time"],
+                     min_time=rec.get("min_time", 1e-3))
 
 
 def invariant_manifolds(orbit, *, which: str = "both", length: float = 2.0, delta: float = 1e-5,

@@ -90,10 +90,15 @@ class ReturnMap:
         Longest time allowed for one return (default 1000 time units).
     max_steps : int
         Step budget per return.
+    min_time : float
+        Shortest return counted (default 1e-3): near the curve where the flow is
+        tangent to the plane the return time goes to zero and P tends to the
+        identity, a spurious line of fixed points that Newton would creep onto.
     """
 
     def __init__(self, flow: Flow, section: Plane | Stroboscopic, *, t0: float = 0.0, rtol: float = 1e-12,
-                 atol: float = 1e-12, max_time: float | None = None, max_steps: int = 2_000_000):
+                 atol: float = 1e-12, max_time: float | None = None, max_steps: int = 2_000_000,
+                 min_time: float = 1e-3):
         if not isinstance(flow, Flow):
             raise FlowkitError(f"`flow` must be a flowkit Flow (e.g. flowkit.flow('stf')); got {type(flow).__name__}")
         if not isinstance(section, (Plane, Stroboscopic)):
@@ -109,6 +114,7 @@ class ReturnMap:
         self.atol = positive(atol, "atol")
         self.max_time = positive(max_time, "max_time") if max_time is not None else 1000.0
         self.max_steps = _count(max_steps, "max_steps")
+        self.min_time = positive(min_time, "min_time", allow_zero=True)
         self.plane_vec, self.record = _plane_vector(flow, section)
         self.view = section if isinstance(section, Plane) else section.view
         self.strobe = isinstance(section, Stroboscopic)
@@ -166,13 +172,15 @@ class ReturnMap:
         outcome = np.zeros(N, dtype=np.int8)
         steps = np.zeros(N, dtype=np.int64)
         t_start = self.t0 + (self.section.phase if self.strobe else 0.0)
+        if threads is None and N < 8:
+            threads = 1  # waking a thread pool costs more than a few returns (and much more on a busy machine)
         with thread_limit(threads), numba.parallel_chunksize(1):
             self.flow.kernels.rm_batch(Y, t_start, direction, k, spans, self.flow.params, self.rtol, self.atol,
                                        math.inf, int(self.max_steps * k), self.flow.domain == "ball", plane,
                                        t_out, outcome, steps)
         ok = outcome == (_FINISHED if self.strobe else _CROSSING_FOUND)
-        # a "return" within a hair of the start is the start itself at a tangency of the plane
-        ok &= np.abs(t_out - (self.t0 + (self.section.phase if self.strobe else 0.0))) > 1e-7 * self.time_scale
+        if not self.strobe:  # a near-instant "return" is the start itself at a tangency of the plane
+            ok &= np.abs(t_out - t_start) > max(self.min_time, 1e-9)
         ok &= np.all(np.isfinite(Y), axis=1)
         pts = Y[:, :3].copy()
         shift = self._shift(X0, pts) if self.flow.domain == "periodic" else np.zeros((N, 3))
@@ -223,7 +231,7 @@ class ReturnMap:
     def describe(self) -> dict:
         """JSON record of the map (section, dimension, tolerances) for provenance."""
         return {"section": self.record, "dim": self.dim, "rtol": self.rtol, "atol": self.atol,
-                "max_time": self.max_time, "t0": self.t0}
+                "max_time": self.max_time, "t0": self.t0, "min_time": self.min_time}
 
 
 def _decoupled(flow: Flow, normal: np.ndarray, period: float) -> bool:
