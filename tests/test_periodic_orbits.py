@@ -231,3 +231,25 @@ def test_shooting_finds_the_lorenz_orbit_with_a_unit_multiplier(lorenz_ab):
     assert sh.converged and abs(sh.period - 1.5586522) < 1e-7
     assert np.min(np.abs(sh.multipliers - 1.0)) < 1e-7  # the direction along the flow (exact)
     assert np.prod(np.abs(sh.multipliers)) == pytest.approx(math.exp(-(41 / 3) * sh.period), rel=1e-6)
+
+
+def test_lab_skeleton_marks_follow_the_parameter():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from flowkit.lab.skeleton import SkeletonMarks
+
+    marks = SkeletonMarks(widgets=False)
+    fig, ax = plt.subplots()
+    marks.attach(ax)
+    pl = Plane((0, 1, 0), 0.0, "+")
+    msg = marks.click(flowkit.flow("hill", strength=U_HILL, swirl=1.0), pl, (0.69, 0.02))
+    assert msg.startswith("elliptic orbit of period 1")
+    assert np.allclose(marks._marks["elliptic"].get_xydata(), [[math.sqrt(0.5), 0.0]], atol=1e-8)
+    note = marks.follow(flowkit.flow("hill", strength=U_HILL, swirl=1.1), pl)  # the slider moved
+    assert note == "followed 1 periodic orbit(s)"
+    assert marks.orbits[0].trace == pytest.approx(2 * math.cos(2 * math.pi * math.sqrt(2) * U_HILL / 1.1), abs=1e-8)
+    assert "no periodic orbit" in marks.click(flowkit.flow("hill", swirl=0.0), pl, (0.5, 0.1), period=1)
+    plt.close(fig)
