@@ -45,6 +45,7 @@ chunk after the first, and call :meth:`Budget.advance` with the work finished::
 from __future__ import annotations
 
 import math
+import os
 import sys
 import time
 from typing import Iterable, Iterator, TypeVar
@@ -53,8 +54,15 @@ from flowkit.errors import FlowkitError
 
 T = TypeVar("T")
 
-#: seconds a run lasts before its progress bar appears
+#: seconds a run lasts before its progress bar appears (environment: FLOWKIT_PROGRESS_DELAY)
 DEFAULT_DELAY = 2.0
+
+
+def _delay() -> float:
+    try:
+        return float(os.environ.get("FLOWKIT_PROGRESS_DELAY", DEFAULT_DELAY))
+    except ValueError:
+        return DEFAULT_DELAY
 
 
 def check_max_seconds(value, name: str = "max_seconds") -> float | None:
@@ -86,8 +94,12 @@ class Budget:
         ``delay`` seconds; ``False``: never.
     max_seconds : float or None
         Wall-clock budget; checked between chunks (:meth:`expired`).
-    delay : float
-        Seconds before the bar appears.
+    delay : float, optional
+        Seconds before the bar appears (default :data:`DEFAULT_DELAY`, 2 s, or the
+        environment variable ``FLOWKIT_PROGRESS_DELAY``).
+    keep_empty : bool
+        Also end quietly on Ctrl-C before the first chunk finished (for runs
+        whose initial state is already a result, e.g. a material line at t0).
 
     Attributes
     ----------
@@ -101,13 +113,14 @@ class Budget:
 
     def __init__(self, total: int | None = None, desc: str = "", unit: str = "chunk", *,
                  progress: bool | None = None, max_seconds: float | None = None,
-                 delay: float = DEFAULT_DELAY):
+                 delay: float | None = None, keep_empty: bool = False):
         self.total = total
         self.desc = desc
         self.unit = unit
         self.show = progress is None or bool(progress)
         self.max_seconds = check_max_seconds(max_seconds)
-        self.delay = float(delay)
+        self.delay = _delay() if delay is None else float(delay)
+        self.keep_empty = bool(keep_empty)
         self.done = 0
         self.interrupted = False
         self.timed_out = False
@@ -130,7 +143,7 @@ class Budget:
         self.seconds = time.perf_counter() - self._start
         if self._bar is not None:
             self._bar.close()
-        if exc_type is KeyboardInterrupt and self.done > 0:
+        if exc_type is KeyboardInterrupt and (self.done > 0 or self.keep_empty):
             self.interrupted = True
             return True  # keep the finished chunks: the caller assembles a partial result
         return False
@@ -141,8 +154,11 @@ class Budget:
         return time.perf_counter() - self._start
 
     def expired(self) -> bool:
-        """True once ``max_seconds`` has passed and at least one unit is done (then stop)."""
-        if self.max_seconds is None or self.done == 0:
+        """True once ``max_seconds`` has passed and at least one unit is done (then stop).
+
+        (With ``keep_empty`` the budget applies from the start.)
+        """
+        if self.max_seconds is None or (self.done == 0 and not self.keep_empty):
             return False
         if self.elapsed() >= self.max_seconds:
             self.timed_out = True
@@ -189,10 +205,10 @@ def progress_bar(iterable, enabled: bool, unit: str, desc: str | None = None):
 
     The simple form for a loop that needs no time budget or interrupt handling
     (:class:`Budget` does both). The bar goes to stderr and appears only after
-    :data:`DEFAULT_DELAY` seconds.
+    the delay of :class:`Budget`.
     """
     if not enabled:
         return iterable
     from tqdm.auto import tqdm
 
-    return tqdm(iterable, unit=unit, desc=desc, delay=DEFAULT_DELAY, file=sys.stderr)
+    return tqdm(iterable, unit=unit, desc=desc, delay=_delay(), file=sys.stderr)
