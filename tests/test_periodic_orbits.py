@@ -253,3 +253,20 @@ def test_lab_skeleton_marks_follow_the_parameter():
     assert marks.orbits[0].trace == pytest.approx(2 * math.cos(2 * math.pi * math.sqrt(2) * U_HILL / 1.1), abs=1e-8)
     assert "no periodic orbit" in marks.click(flowkit.flow("hill", swirl=0.0), pl, (0.5, 0.1), period=1)
     plt.close(fig)
+
+
+def test_section_explorer_click_finds_a_periodic_orbit_in_orbit_mode():
+    import types
+
+    from flowkit.lab import SectionExplorer
+
+    ex = SectionExplorer("hill", params={"strength": U_HILL, "swirl": 1.0}, normal="y", n_seeds=2, crossings=10,
+                         preview_crossings=4)
+    ex.update()
+    ex.skeleton.toggle.value = True
+    ex.skeleton.period_box.value = 2  # every crossing is kept: the core circle meets y = 0 twice per turn
+    ex._on_click(types.SimpleNamespace(inaxes=ex.ax, button=1, xdata=0.69, ydata=0.02))
+    (orbit,) = ex.skeleton.orbits
+    assert orbit.type == "elliptic" and np.allclose(np.abs(orbit.xi[:, 0]), math.sqrt(0.5), atol=1e-8)
+    assert len(ex.seeds) == 2  # the click did not seed an orbit
+    ex.close()

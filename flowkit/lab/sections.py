@@ -136,6 +136,9 @@ class SectionExplorer(Explorer):
                                               description="crossings")
         self.color_picker = w.ToggleButtons(options=["orbit", "chaos"], value=color_by, description="colour",
                                             style={"button_width": "60px"})
+        from flowkit.lab.skeleton import SkeletonMarks
+
+        self.skeleton = SkeletonMarks()  # periodic-orbit mode (flowkit/lab/skeleton.py)
         super().__init__(flow, params=params, presets=presets, **kw)
         self._user_seeds = None if seeds is None else np.array(seeds, dtype=float, ndmin=2)
         self._flow_changed()
@@ -168,7 +171,7 @@ class SectionExplorer(Explorer):
         return g if isinstance(g, Plane) else g.view
 
     def _extra_controls(self) -> list:
-        return [*self.plane_controls.widgets, self.crossings_box, self.color_picker]
+        return [*self.plane_controls.widgets, self.crossings_box, self.color_picker, *self.skeleton.widgets]
 
     def _flow_changed(self) -> None:
         base = self._base
@@ -183,6 +186,7 @@ class SectionExplorer(Explorer):
         self.seeds = self._user_seeds if self._user_seeds is not None and base is self._defaults else \
             across_domain(base, self.view, self.n_seeds)
         self.result = None
+        self.skeleton.clear()
         self._frame()
 
     def _on_plane(self, _change) -> None:
@@ -217,6 +221,13 @@ class SectionExplorer(Explorer):
             return
         toolbar = getattr(self.fig.canvas, "toolbar", None)
         if toolbar is not None and getattr(toolbar, "mode", ""):  # zooming or panning, not seeding
+            return
+        if self.skeleton.active:  # periodic-orbit mode: find the orbit nearest the click
+            try:
+                self.say(self.skeleton.click(self.flow, self.geometry, (event.xdata, event.ydata)))
+            except FlowkitError as exc:
+                self.say(str(exc), error=True)
+            self._draw_idle()
             return
         try:
             self.add_seed(self.view.point(event.xdata, event.ydata))
@@ -268,6 +279,7 @@ class SectionExplorer(Explorer):
 
         ax = self.fig.add_subplot()
         self.ax = ax
+        self.skeleton.attach(ax)
         self._orbit_cmap = orbit_cmap(_ORBIT_COLOURS)
         self._cmap_name = "orbits"
         self.scatter = ax.scatter(np.zeros(0), np.zeros(0), c=np.zeros(0), s=1.0, linewidths=0,
@@ -330,6 +342,8 @@ class SectionExplorer(Explorer):
         if self._base.domain not in ("ball", "periodic") and len(values):
             self.ax.update_datalim(sec.display_coords())
             self.ax.autoscale_view()
+        if not preview and self.skeleton.orbits:  # the marks follow the parameters by continuation
+            self.skeleton.follow(self.flow, self.geometry)
         self.ax.set_title(self._label(self.flow) + ("  (preview)" if preview else "") + "\n" + self.section_text(),
                           fontsize=10)
 
