@@ -33,10 +33,10 @@ scans = {}
 for ax, r in zip(axes, rotations):
     f = base.with_params(rotation=r)
     sec = poincare_section(f, seeds, plane, crossings=size(400, 40))
-    scans[r] = scan_periodic_orbits(f, plane, grid=size(12, 4), max_period=size(2, 1))
+    scans[r] = scan_periodic_orbits(f, plane, grid=size(14, 5), max_period=2)
     plot_section(ax, sec, size=0.5, skeleton=scans[r], c="0.6")
     ax.set(title=f"rotation = {r:g}: {len(scans[r])} periodic orbits")
-axes[-1].legend(loc="lower left", fontsize=7)
+axes[-1].legend(loc="lower left", fontsize=7) if len(scans[rotations[-1]]) else None
 plt.show()
 for r in rotations:
     print(f"rotation {r:g}:", scans[r].counts())"""),
@@ -87,19 +87,15 @@ centre the profile tends to arccos(tr/2)/2π of the linearized map.
     code("""
 from flowkit.sections import rotation_profile
 
-f3 = base.with_params(rotation=3.0)
-centres = scans[3.0].select("elliptic", 1)
-if len(centres):
-    c = scans[3.0].orbit_points(int(centres[0]))[0]
-    prof = rotation_profile(f3, c, plane, towards=-c, radius=size(0.12, 0.05), seeds=size(24, 4),
-                            iterations=size(300, 30))
-    tr = float(scans[3.0].trace[centres[0]])
-    fig, ax = plt.subplots(figsize=(5, 3.2))
-    plot_rotation(ax, prof)
-    ax.axhline(np.arccos(tr / 2) / (2 * np.pi), color="0.6", ls="--", lw=0.8)
-    ax.axhline(-np.arccos(tr / 2) / (2 * np.pi), color="0.6", ls="--", lw=0.8)
-    plt.show()
-    print(prof)
-else:
-    print("no elliptic period-1 orbit found in this (quick) scan")"""),
+r_end, centre = curve.values[-1], curve.xi[-1]   # the saddle, now the centre of a period-2 island
+island = find_periodic_orbit(base.with_params(rotation=r_end), centre, plane, period=2)
+print(island)
+prof = rotation_profile(base.with_params(rotation=r_end), island, plane, towards=(1.0, 0.0),
+                        radius=size(0.08, 0.04), seeds=size(24, 4), iterations=size(300, 30))
+fig, ax = plt.subplots(figsize=(5, 3.2))
+plot_rotation(ax, prof)
+linear = np.arccos(island.trace / 2) / (2 * np.pi)   # the linearized map's rotation at the centre
+ax.axhline(np.sign(prof.rotation[0]) * linear, color="0.6", ls="--", lw=0.8)
+plt.show()
+print(prof)"""),
 ]
