@@ -317,3 +317,53 @@ def test_helicity_refuses_unbounded_flows():
 
     with pytest.raises(FlowkitError, match="bounded domain"):
         kinetic_helicity(flowkit.flow("lorenz"))
+
+
+# -- material ribbons ----------------------------------------------------------------------------------
+def _loop(t):
+    a = 2 * np.pi * np.asarray(t)[:, None]
+    e1, e2 = np.array([1.0, 0.0, 0.3]) / math.sqrt(1.09), np.array([0.0, 1.0, 0.0])
+    return np.array([0.1, 0.05, 0.0]) + 0.5 * (np.cos(a) * e1 + np.sin(a) * e2)
+
+
+def _once_turning(t):
+    """In-plane radial direction turned once about the tangent along the loop: Lk = Tw = 1 at t = 0."""
+    a = 2 * np.pi * np.asarray(t)[:, None]
+    e1, e2 = np.array([1.0, 0.0, 0.3]) / math.sqrt(1.09), np.array([0.0, 1.0, 0.0])
+    nrm = np.cross(e1, e2)
+    return np.cos(a) * (np.cos(a) * e1 + np.sin(a) * e2) - np.sin(a) * nrm
+
+
+def test_material_ribbon_conserves_linking_while_writhe_changes():
+    """A smooth flow is an isotopy: Lk(curve, edge) cannot change (exact topological fact), while
+    Wr and Tw trade (Călugăreanu–White). stf, rotation 0.3, t = 3 (a few turnovers; the loop
+    stretches about 25-fold): Wr changes by more than 1, Lk stays its integer within 1e-6."""
+    import flowkit
+    from flowkit.topology import material_ribbon
+
+    r = material_ribbon(flowkit.flow("stf", rotation=0.3), time=3.0, curve=_loop, normals=_once_turning, passes=6,
+                        max_spacing=0.05, max_angle=0.3, initial_points=64)
+    assert r.stopped == "time"
+    assert round(r.linking[0]) == 1 and r.linking_drift < 1e-6
+    assert np.ptp(r.writhe) > 1.0 and r.lengths[-1] > 10 * r.lengths[0]
+    assert np.max(np.abs(r.defect)) < 1e-8
+    assert np.allclose(r.twist + r.writhe, 1.0, atol=1e-8)
+    assert np.all(r.writhe_error[1:] < 0.01)
+
+
+def test_material_ribbon_per_period_and_bad_input():
+    import flowkit
+    from flowkit.topology import material_ribbon
+
+    f = flowkit.flow("circular", epsilon=0.1)
+    r = material_ribbon(f, periods=2, passes=2, initial_points=32, curve=lambda s: _loop(s) + np.pi,
+                        normals=_once_turning)
+    assert r.per_period and np.allclose(r.times, [0, f.period, 2 * f.period])
+    assert np.all(np.round(r.linking) == 1) and r.linking_drift < 1e-6
+    with pytest.raises(FlowkitError, match="steady"):
+        material_ribbon(flowkit.flow("stf"), periods=1)
+    with pytest.raises(FlowkitError, match="exactly one of"):
+        material_ribbon(flowkit.flow("stf"))
+    with pytest.raises(FlowkitError, match="parallel to the curve's tangent"):
+        tangent = lambda s: np.roll(_loop(s), -1, axis=0) - _loop(s)  # noqa: E731
+        material_ribbon(flowkit.flow("stf"), time=1.0, curve=_loop, normals=lambda s: tangent(s) * 0)

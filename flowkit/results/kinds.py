@@ -21,4 +21,10 @@ MODULES: dict[str, str] = {
     "Manifold": "flowkit.sections.orbit_results",
     "ContinuationCurve": "flowkit.sections.orbit_results",
     "RotationProfile": "flowkit.sections.rotation",
+    "CurveGeometry": "flowkit.topology.results",
+    "Writhe": "flowkit.topology.results",
+    "Linking": "flowkit.topology.results",
+    "RibbonTopology": "flowkit.topology.results",
+    "RibbonHistory": "flowkit.topology.results",
+    "Helicity": "flowkit.topology.results",
 }

@@ -38,15 +38,18 @@ def _unit_cross(ax, ay, az, bx, by, bz):
 
 @njit(cache=True, inline="always")
 def _asin_dot(ax, ay, az, bx, by, bz):
-    """asin(a . b) of unit vectors, evaluated as atan2(a . b, |a x b|).
+    """asin(a . b) of unit vectors; as atan2(a . b, |a x b|) when |a . b| > 0.7.
 
     The same angle, but accurate when a and b are nearly parallel, where asin of a
     dot product near +-1 loses half the digits (nearly coplanar segment pairs).
     """
+    d = ax * bx + ay * by + az * bz
+    if -0.7 < d < 0.7:
+        return math.asin(d)
     cx = ay * bz - az * by
     cy = az * bx - ax * bz
     cz = ax * by - ay * bx
-    return math.atan2(ax * bx + ay * by + az * bz, math.sqrt(cx * cx + cy * cy + cz * cz))
+    return math.atan2(d, math.sqrt(cx * cx + cy * cy + cz * cz))
 
 
 @njit(cache=True)
