@@ -270,3 +270,18 @@ def test_section_explorer_click_finds_a_periodic_orbit_in_orbit_mode():
     assert orbit.type == "elliptic" and np.allclose(np.abs(orbit.xi[:, 0]), math.sqrt(0.5), atol=1e-8)
     assert len(ex.seeds) == 2  # the click did not seed an orbit
     ex.close()
+
+
+def test_stroboscopic_map_of_the_double_gyre():
+    # steady double gyre (epsilon = 0): the gyre centre (1/2, 1/2) is a fixed point of the period map with
+    # rotation rate A pi^2 (linearization of psi = A sin(pi x) sin(pi y), exact): tr = 2 cos(A pi^2 T)
+    f = flowkit.flow("double-gyre", epsilon=0.0)
+    o = find_periodic_orbit(f, (0.45, 0.52), Stroboscopic())
+    assert o.converged and o.xi.shape == (1, 2)  # w = 0 and nothing depends on z: a map of the plane
+    assert np.allclose(o.xi[0], [0.5, 0.5], atol=1e-9)
+    T = 2 * math.pi / f.param_dict["omega"]
+    assert o.trace == pytest.approx(2 * math.cos(f.param_dict["A"] * math.pi**2 * T), abs=1e-8)
+    # forced (epsilon = 0.25): the map stays area-preserving, so det DP = 1 at its periodic points
+    g = flowkit.flow("double-gyre")
+    og = find_periodic_orbit(g, o.xi[0], Stroboscopic())
+    assert og.converged and abs(og.det - 1.0) < 1e-9 and og.type in ("elliptic", "hyperbolic")
