@@ -43,17 +43,19 @@ def finite(value, name: str) -> float:
     return val
 
 
-def duration(value, name: str = "time") -> float:
-    """A positive finite duration (backward time is chosen by a direction option, not a sign)."""
+def duration(value, name: str = "time", *, backward_hint: bool = True) -> float:
+    """A positive finite duration (backward time is chosen by a direction option, not a sign).
+
+    ``backward_hint=False`` leaves out the hint about direction='backward' (for
+    analyses that have no such option).
+    """
     try:
         val = float(value)
     except (TypeError, ValueError):
         raise FlowkitError(f"`{name}` must be a positive number; got {value!r}") from None
     if not (math.isfinite(val) and val > 0):
-        raise FlowkitError(
-            f"`{name}` must be a positive, finite duration; got {value!r} "
-            "(for backward time use direction='backward', or --backward on the command line)"
-        )
+        hint = " (for backward time use direction='backward', or --backward on the command line)"
+        raise FlowkitError(f"`{name}` must be a positive, finite duration; got {value!r}{hint if backward_hint else ''}")
     return val
 
 
@@ -78,6 +80,20 @@ def one_of(value, name: str, choices: Iterable[str]) -> str:
     if value not in choices:
         raise FlowkitError(f"`{name}` must be one of {', '.join(map(repr, choices))}; got {value!r}")
     return value
+
+
+def vector(value, name: str, *, nonzero: bool = False, unit: bool = False) -> np.ndarray:
+    """Three finite numbers as a float array (``nonzero``: not the zero vector; ``unit``: normalized)."""
+    try:
+        v = np.asarray(value, dtype=np.float64).reshape(-1)
+    except (TypeError, ValueError):
+        v = np.zeros(0)
+    if v.shape != (3,) or not np.all(np.isfinite(v)):
+        raise FlowkitError(f"`{name}` must be three finite numbers, e.g. (0, 0, 1); got {value!r}")
+    n = float(np.linalg.norm(v))
+    if (nonzero or unit) and n == 0:
+        raise FlowkitError(f"`{name}` must not be the zero vector; give a direction, e.g. (0, 0, 1)")
+    return v / n if unit else v
 
 
 def points(value, name: str = "points", *, dim: int = 3) -> np.ndarray:

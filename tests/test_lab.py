@@ -109,8 +109,8 @@ def test_exports_pdf_rasterizes_points_and_npz_keeps_provenance(explorer, tmp_pa
     assert sec.provenance["parameters"] == explorer.flow.param_dict
     assert sec.provenance["flow"] == "stf" and "integrator" in sec.provenance
     with zipfile.ZipFile(tmp_path / "sec.npz") as zf:  # plain arrays, JSON provenance: no pickle inside
-        assert "provenance.npy" in zf.namelist()
-    json.loads(str(np.load(tmp_path / "sec.npz", allow_pickle=False)["provenance"]))
+        assert "__flowkit__.npy" in zf.namelist()
+    json.loads(str(np.load(tmp_path / "sec.npz", allow_pickle=False)["__flowkit__"]))["fields"]["provenance"]
 
 
 def test_default_export_name_says_what_and_which_parameters(explorer, tmp_path):

@@ -244,8 +244,8 @@ def assert_same_section(a: Section, b: Section):
 
 def test_npz_and_netcdf_round_trip_without_pickle(small_section, tmp_path):
     path = small_section.save(tmp_path / "sec.npz")
-    with np.load(path, allow_pickle=False) as raw:  # plain arrays and JSON strings only
-        prov = json.loads(str(raw["provenance"]))
+    with np.load(path, allow_pickle=False) as raw:  # plain arrays and one JSON string only
+        prov = json.loads(str(raw["__flowkit__"]))["fields"]["provenance"]
         assert raw["points"].shape == (small_section.crossings_total, 3)
     assert prov["flow"] == "stf" and prov["integrator"]["rtol"] == 1e-10 and len(prov["seeds"]) == 5
     assert "flowkit_version" in prov and "created" in prov
@@ -311,7 +311,7 @@ def test_cli_section_writes_npz_and_reports_json(tmp_path, capsys):
     assert res["plane_residual_max"] < 1e-14 and png.stat().st_size > 0
     with np.load(out, allow_pickle=False) as raw:
         assert raw["points"].shape == (90, 3) and raw["time"].shape == (90,) and raw["orbit"].shape == (90,)
-        assert json.loads(str(raw["provenance"]))["parameters"] == {"rotation": 0.3}
+        assert json.loads(str(raw["__flowkit__"]))["fields"]["provenance"]["parameters"] == {"rotation": 0.3}
     seeds = tmp_path / "seeds.txt"
     seeds.write_text("0.1 0 0.2\n0.3 0 -0.1\n")
     code = main(["section", "stf", "--seed-file", str(seeds), "--crossings", "5", "--direction", "both", "--json"])

@@ -18,23 +18,24 @@ The grid lies on a plane of any orientation, described by :class:`GridPlane`
 
 from __future__ import annotations
 
-import json
 import math
 import time as _time
 import warnings
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numba
 import numpy as np
 
 from flowkit.chaos.grid import GridPlane, check_resolution
-from flowkit.chaos.tangent import _json_ready, method_record, read_npz, require_flow, write_npz
+from flowkit.chaos.tangent import method_record, require_flow
 from flowkit.errors import FlowkitError, FlowkitNotice
 from flowkit.flows.base import Flow
 from flowkit.integrate.batch import IntegratorSettings, integrate_states, thread_limit
-from flowkit.integrate.outcomes import OUTCOME_NAMES, outcome_counts
+from flowkit.integrate.outcomes import OUTCOME_NAMES, outcome_counts, outcome_notes
+from flowkit.progress import Budget
+from flowkit.results import Result, plain
 from flowkit.validation import duration as check_time
+from flowkit.validation import finite, one_of
 
 __all__ = ["GridPlane", "FTLEField", "ftle_field", "ftle_from_states", "FTLE_SETTINGS"]
 
@@ -46,11 +47,11 @@ FTLE_SETTINGS = IntegratorSettings(rtol=1e-9, atol=1e-11)
 OUTSIDE = -1
 #: Outcome code of grid points not computed because the run was interrupted.
 NOT_RUN = -2
-_EXTRA_NAMES = {OUTSIDE: "outside the domain", NOT_RUN: "not computed (interrupted)"}
+_EXTRA_NAMES = {OUTSIDE: "outside the domain", NOT_RUN: "not computed (interrupted or time budget)"}
 
 
 @dataclass
-class FTLEField:
+class FTLEField(Result):
     """An FTLE field on a planar grid, with its coordinates and provenance.
 
     Attributes
@@ -80,7 +81,12 @@ class FTLEField:
     direction: str
     plane: dict
     seconds: float = 0.0
+    partial: bool = False
+    notes: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
+
+    _ARRAYS = ("values", "s", "r", "points", "outcome")
+    _DIMS = {"values": ("r", "s"), "s": ("s",), "r": ("r",), "points": ("r", "s", "xyz"), "outcome": ("r", "s")}
 
     @property
     def outcomes(self) -> dict[str, int]:
@@ -96,7 +102,10 @@ class FTLEField:
         return bool(np.all((self.outcome == 0) | (self.outcome == OUTSIDE)))
 
     def to_xarray(self):
-        """``xarray.Dataset`` with ``ftle(r, s)``, ``outcome`` and the x, y, z of each grid point."""
+        """``xarray.Dataset`` with ``ftle(r, s)``, ``outcome`` and the x, y, z of each grid point.
+
+        (A view for analysis; :meth:`save` writes the protocol layout, which :func:`flowkit.load` reads.)
+        """
         import xarray as xr
 
         dims = ("r", "s")
@@ -106,43 +115,24 @@ class FTLEField:
                     "y": (dims, self.points[..., 1]), "z": (dims, self.points[..., 2])},
         )
         ds["ftle"].attrs.update(long_name=f"{self.direction} FTLE", units="1/time")
-        ds.attrs.update(flowkit_result="FTLEField", meta=json.dumps(self._meta()))
+        ds.attrs.update(super().to_xarray().attrs)  # kind, fields and provenance, as in saved files
         return ds
 
-    def _meta(self) -> dict:
-        return _json_ready({"time": self.time, "t0": self.t0, "direction": self.direction, "plane": self.plane,
-                            "seconds": self.seconds, "provenance": self.provenance})
+    def summary(self) -> dict:
+        """Grid, time, value range and outcome counts (what ``--json`` prints)."""
+        ok = self.values[np.isfinite(self.values)]
+        return plain({"shape": list(self.values.shape[::-1]), "time": self.time, "t0": self.t0,
+                      "direction": self.direction, "plane": self.plane,
+                      "min": float(ok.min()) if ok.size else None, "max": float(ok.max()) if ok.size else None,
+                      "mean": float(ok.mean()) if ok.size else None, "outcomes": self.outcomes,
+                      "complete": self.complete, "seconds": self.seconds, "partial": self.partial,
+                      "notes": list(self.notes)})
 
-    def save(self, path) -> Path:
-        """Write to ``.npz`` (arrays + JSON metadata) or ``.nc`` (netCDF via xarray)."""
-        path = Path(path)
-        if path.suffix == ".nc":
-            self.to_xarray().to_netcdf(path)
-            return path
-        if path.suffix != ".npz":
-            raise FlowkitError(f"`path` must end in .npz or .nc; got {path.name!r}")
-        arrays = {"values": self.values, "s": self.s, "r": self.r, "points": self.points, "outcome": self.outcome}
-        return write_npz(path, arrays, {"flowkit_result": "FTLEField", **self._meta()})
-
-    @classmethod
-    def load(cls, path) -> "FTLEField":
-        """Read a file written by :meth:`save` (no code is executed)."""
-        path = Path(path)
-        if path.suffix == ".nc":
-            import xarray as xr
-
-            with xr.open_dataset(path) as ds:
-                if ds.attrs.get("flowkit_result") != "FTLEField":
-                    raise FlowkitError(f"{path} does not hold a flowkit FTLEField")
-                meta = json.loads(ds.attrs["meta"])
-                pts = np.stack([ds["x"].values, ds["y"].values, ds["z"].values], axis=-1)
-                arrays = {"values": ds["ftle"].values, "s": ds["s"].values, "r": ds["r"].values,
-                          "points": pts, "outcome": ds["outcome"].values.astype(np.int8)}
-        else:
-            arrays, meta = read_npz(path)
-            if meta.pop("flowkit_result", None) != "FTLEField":
-                raise FlowkitError(f"{path} does not hold a flowkit FTLEField")
-        return cls(**arrays, **meta)
+    def headline(self) -> list:
+        s = self.summary()
+        return [("grid", f"{s['shape'][0]} x {s['shape'][1]}", None), ("T", self.time, None),
+                ("direction", self.direction, None), ("FTLE min", s["min"], None), ("FTLE max", s["max"], None),
+                ("complete", self.complete, None)]
 
     def __str__(self) -> str:
         ok = self.values[np.isfinite(self.values)]
@@ -196,7 +186,8 @@ def ftle_field(
     settings: IntegratorSettings | None = None,
     threads: int | None = None,
     chunk: int = 8192,
-    progress: bool = False,
+    progress: bool | None = None,
+    max_seconds: float | None = None,
 ) -> FTLEField:
     """FTLE field of ``flow`` on a grid over ``plane``.
 
@@ -222,8 +213,11 @@ def ftle_field(
     chunk : int
         Grid points per kernel call; finished chunks survive an interruption
         (Ctrl-C returns the partial field with outcome -2 where not computed).
-    progress : bool
-        Show a progress bar (tqdm).
+    progress : bool, optional
+        A progress bar over chunks once the run lasts 2 s (default); False: never.
+    max_seconds : float, optional
+        Wall-clock budget, checked between chunks: the field is returned with the
+        finished chunks, outcome -2 elsewhere, flagged ``partial``.
 
     Returns
     -------
@@ -233,12 +227,10 @@ def ftle_field(
     """
     flow = require_flow(flow)
     time = check_time(time)
-    if direction not in ("forward", "backward"):
-        raise FlowkitError(f"`direction` must be 'forward' or 'backward'; got {direction!r}")
+    one_of(direction, "direction", ("forward", "backward"))
     if not isinstance(plane, GridPlane):
         raise FlowkitError(f"`plane` must be a GridPlane (GridPlane.coordinate('z', 0.0, span)); got {type(plane).__name__}")
-    if not math.isfinite(float(t0)):
-        raise FlowkitError(f"`t0` must be finite; got {t0!r}")
+    t0 = finite(t0, "t0")
     plane = plane.with_default_span(flow)
     settings = settings or FTLE_SETTINGS
     planar = flow.kind == "planar"
@@ -256,25 +248,21 @@ def ftle_field(
     idx = np.flatnonzero(inside)
     t1 = float(t0) + (time if direction == "forward" else -time)
     start = _time.perf_counter()
-    bar = None
-    if progress:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(total=idx.size, desc="FTLE", unit="pt")
-    try:
+    with Budget(total=idx.size, desc=f"FTLE {flow.name}", unit="pt", progress=progress,
+                max_seconds=max_seconds) as budget:
         for a in range(0, idx.size, chunk):
+            if budget.expired():
+                break
             part = idx[a:a + chunk]
             vals, codes = _run_chunk(flow, flat[part], float(t0), t1, time, settings, threads, planar)
             values[part] = vals
             outcome[part] = codes
-            if bar is not None:
-                bar.update(part.size)
-    except KeyboardInterrupt:
-        warnings.warn(f"FTLE run interrupted: {int(np.sum(outcome == NOT_RUN))} grid points not computed "
-                      "(outcome -2); the finished ones are kept", FlowkitNotice, stacklevel=2)
-    finally:
-        if bar is not None:
-            bar.close()
+            budget.advance(part.size)
+    notes = []
+    if budget.partial:
+        notes.append(f"{budget.reason}; {int(np.sum(outcome == NOT_RUN))} grid points not computed (outcome -2)")
+        warnings.warn(f"FTLE field: {notes[0]}", FlowkitNotice, stacklevel=2)
+    notes += outcome_notes(outcome[outcome >= 0])
     seconds = _time.perf_counter() - start
     failed = {OUTCOME_NAMES[c]: int(n) for c, n in zip(*np.unique(outcome[outcome > 0], return_counts=True))}
     if failed:
@@ -287,4 +275,4 @@ def ftle_field(
         resolution=list(check_resolution(resolution)), threads=threads)
     M, N = pts.shape[:2]
     return FTLEField(values.reshape(M, N), s, r, pts, outcome.reshape(M, N), time, float(t0), direction,
-                     plane.as_dict(), seconds, provenance)
+                     plane.as_dict(), seconds, budget.partial, notes, provenance)

@@ -9,19 +9,9 @@ import numpy as np
 
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
-from flowkit.validation import parse_vector
+from flowkit.validation import parse_vector, vector
 
 __all__ = ["GridPlane", "default_span", "check_resolution"]
-
-
-def _unit(vec, name: str) -> np.ndarray:
-    v = np.asarray(vec, dtype=np.float64).reshape(-1)
-    if v.shape != (3,) or not np.all(np.isfinite(v)):
-        raise FlowkitError(f"`{name}` must be three finite numbers; got {vec!r}")
-    n = np.linalg.norm(v)
-    if n == 0:
-        raise FlowkitError(f"`{name}` must not be the zero vector")
-    return v / n
 
 
 @dataclass(frozen=True)
@@ -46,11 +36,9 @@ class GridPlane:
         ``v`` is made orthogonal to ``u`` (Gram–Schmidt), keeping its side; ``span``
         is (s_min, s_max, r_min, r_max), coordinates along ``u`` and ``v``.
         """
-        o = np.asarray(origin, dtype=np.float64).reshape(-1)
-        if o.shape != (3,) or not np.all(np.isfinite(o)):
-            raise FlowkitError(f"plane `origin` must be three finite numbers; got {origin!r}")
-        uu = _unit(u, "u")
-        vv = _unit(v, "v")
+        o = vector(origin, "origin")
+        uu = vector(u, "u", unit=True)
+        vv = vector(v, "v", unit=True)
         vv = vv - (vv @ uu) * uu
         if np.linalg.norm(vv) < 1e-9:
             raise FlowkitError("plane directions `u` and `v` are parallel; give two independent in-plane vectors")

@@ -34,8 +34,11 @@ import numpy as np
 from flowkit.chaos.tangent import dop853_settings, method_record, require_flow, run_tangent, tangent_states
 from flowkit.errors import FlowkitError, FlowkitNotice
 from flowkit.flows.base import Flow
-from flowkit.integrate.batch import IntegratorSettings, check_seeds
-from flowkit.integrate.outcomes import Outcome, outcome_counts
+from flowkit.integrate.batch import IntegratorSettings
+from flowkit.integrate.outcomes import Outcome, outcome_counts, outcome_notes
+from flowkit.progress import Budget
+from flowkit.results import Result, plain
+from flowkit.validation import count, finite, points_in_domain
 from flowkit.validation import duration as check_time
 
 __all__ = ["orbit_ftle", "orbit_indicator", "attach_indicator", "default_threshold", "ChaoticFraction",
@@ -54,11 +57,13 @@ def default_threshold(time: float) -> float:
 
 
 @dataclass
-class OrbitExponents:
+class OrbitExponents(Result):
     """Finite-time largest exponents of many orbits.
 
     ``values`` at the full time T and ``half`` at T/2 (regular orbits roughly halve
     from T/2 to T; chaotic ones stay put). Failed orbits (see ``outcome``) are NaN.
+    A ``partial`` result (time budget or Ctrl-C) has outcome -1 and NaN for the
+    orbits that were not run; ``notes`` say why.
     """
 
     values: np.ndarray
@@ -68,7 +73,18 @@ class OrbitExponents:
     time: float
     t0: float
     threshold: float
+    partial: bool = False
+    notes: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
+
+    _ARRAYS = ("values", "half", "outcome", "seeds")
+    _DIMS = {"values": ("orbit",), "half": ("orbit",), "outcome": ("orbit",), "seeds": ("orbit", "xyz")}
+
+    def summary(self) -> dict:
+        """Counts of chaotic and failed orbits, threshold and time (what ``--json`` prints)."""
+        return plain({"orbits": len(self.values), "chaotic": int(np.sum(self.chaotic)), "threshold": self.threshold,
+                      "time": self.time, "t0": self.t0, "outcomes": self.outcomes, "partial": self.partial,
+                      "notes": list(self.notes)})
 
     @property
     def chaotic(self) -> np.ndarray:
@@ -90,6 +106,8 @@ def orbit_ftle(
     t0: float = 0.0,
     threshold: float | None = None,
     threads: int | None = None,
+    max_seconds: float | None = None,
+    progress: bool | None = None,
 ) -> OrbitExponents:
     """Finite-time largest Lyapunov exponent of each seed's orbit (parallel over seeds).
 
@@ -107,27 +125,46 @@ def orbit_ftle(
     threshold : float, optional
         Regular/chaotic threshold (default :func:`default_threshold`).
     threads : int, optional
+    max_seconds : float, optional
+        Wall-clock budget, checked between chunks of seeds; the orbits not yet run
+        are left out (outcome -1) and the result is flagged ``partial``.
+    progress : bool, optional
+        Progress bar over chunks once the run lasts 2 s (default); False: never.
 
     Returns
     -------
     OrbitExponents
+        Ctrl-C between chunks also returns the finished orbits, flagged ``partial``.
     """
     flow = require_flow(flow)
     time = check_time(time)
     settings = dop853_settings(settings)
-    pts = check_seeds(flow, seeds)
-    if not math.isfinite(float(t0)):
-        raise FlowkitError(f"`t0` must be finite; got {t0!r}")
+    pts = points_in_domain(flow, seeds, "seeds")
+    t0 = finite(t0, "t0")
     thr = default_threshold(time) if threshold is None else float(threshold)
     v0 = _V0_2D if flow.kind == "planar" else _V0_3D
     times = float(t0) + np.array([0.0, 0.5 * time, time])
-    run = run_tangent(flow, tangent_states(pts, 1, v0), times, settings, threads)
-    ok = run.outcome == Outcome.FINISHED
-    values = np.where(ok, run.logs[:, :, 0].sum(axis=1) / time, np.nan)
-    half = run.logs[:, 0, 0] / (0.5 * time)
-    n_bad = int(np.sum(~ok))
+    N = len(pts)
+    logs = np.full((N, 2), np.nan)
+    outcome = np.full(N, -1, dtype=np.int8)   # -1: not run (a partial result)
+    step = max(16, -(-N // 20))               # about 20 chunks: progress, time budget and Ctrl-C between them
+    with Budget(total=N, desc=f"indicator {flow.name}", unit="orbit", progress=progress,
+                max_seconds=max_seconds) as budget:
+        for a in range(0, N, step):
+            if budget.expired():
+                break
+            run = run_tangent(flow, tangent_states(pts[a:a + step], 1, v0), times, settings, threads)
+            logs[a:a + step] = run.logs[:, :, 0]
+            outcome[a:a + step] = run.outcome
+            budget.advance(len(run.outcome))
+    ok = outcome == Outcome.FINISHED
+    values = np.where(ok, logs.sum(axis=1) / time, np.nan)
+    half = logs[:, 0] / (0.5 * time)
+    notes = [budget.reason] if budget.partial else []
+    notes += outcome_notes(outcome[outcome >= 0])
+    n_bad = int(np.sum(outcome > 0))
     if n_bad:
-        bad = {k: v for k, v in outcome_counts(run.outcome).items() if v and k != "finished"}
+        bad = {k: v for k, v in outcome_counts(outcome).items() if v and k != "finished"}
         warnings.warn(f"{n_bad} of {len(ok)} orbits did not finish ({bad}); their exponent is NaN",
                       FlowkitNotice, stacklevel=2)
     prov = flow.provenance()
@@ -135,7 +172,7 @@ def orbit_ftle(
                                    time=time, t0=float(t0), threshold=thr,
                                    threshold_rule="given" if threshold is not None else "2 log(T) / T",
                                    initial_tangent=v0.tolist())
-    return OrbitExponents(values, half, run.outcome.copy(), pts, time, float(t0), thr, prov)
+    return OrbitExponents(values, half, outcome, pts, time, float(t0), thr, budget.partial, notes, prov)
 
 
 def orbit_indicator(flow: Flow, seeds, time: float, settings: IntegratorSettings | None = None) -> np.ndarray:
@@ -173,7 +210,7 @@ def attach_indicator(section, flow: Flow, time: float, settings: IntegratorSetti
 
 
 @dataclass
-class ChaoticFraction:
+class ChaoticFraction(Result):
     """Fraction of seeds whose orbits are chaotic, with its binomial standard error."""
 
     fraction: float
@@ -185,12 +222,22 @@ class ChaoticFraction:
     time: float
     orbits: OrbitExponents
     bounds: list
+    partial: bool = False
+    notes: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
 
-    def to_dict(self) -> dict:
-        return {"fraction": self.fraction, "stderr": self.stderr, "n_chaotic": self.n_chaotic,
-                "n_used": self.n_used, "n_failed": self.n_failed, "threshold": self.threshold,
-                "time": self.time, "bounds": self.bounds, "provenance": self.provenance}
+    _PARTS = ("orbits",)
+
+    def summary(self) -> dict:
+        """The fraction with its error, counts, threshold and time (what ``--json`` prints)."""
+        return plain({"fraction": self.fraction, "stderr": self.stderr, "n_chaotic": self.n_chaotic,
+                      "n_used": self.n_used, "n_failed": self.n_failed, "threshold": self.threshold,
+                      "time": self.time, "bounds": self.bounds, "partial": self.partial,
+                      "notes": list(self.notes)})
+
+    def headline(self) -> list:
+        return [("chaotic fraction", self.fraction, self.stderr), ("orbits used", self.n_used, None),
+                ("failed", self.n_failed, None), ("threshold", self.threshold, None), ("T", self.time, None)]
 
     def __str__(self) -> str:
         return (f"chaotic fraction {self.fraction:.3f} ± {self.stderr:.3f} ({self.n_chaotic}/{self.n_used} orbits "
@@ -228,21 +275,26 @@ def chaotic_fraction(
     seed: int = 0,
     settings: IntegratorSettings | None = None,
     threads: int | None = None,
+    max_seconds: float | None = None,
+    progress: bool | None = None,
 ) -> ChaoticFraction:
     """Estimate the fraction of the domain filled by chaotic orbits.
 
     ``n`` seeds are drawn uniformly (in the unit ball, the 2*pi box, or ``bounds``);
     each orbit is classified by :func:`orbit_ftle`. Orbits that fail (e.g. leave
     the domain) are left out and counted in ``n_failed``. The standard error is
-    the binomial one, sqrt(f (1 - f) / n_used).
+    the binomial one, sqrt(f (1 - f) / n_used). ``max_seconds`` and Ctrl-C end the
+    run between chunks of seeds with the fraction of the orbits finished so far
+    (``partial``; the seeds are in random order, so the estimate stays unbiased).
     """
     flow = require_flow(flow)
-    if not (isinstance(n, (int, np.integer)) and n >= 1):
-        raise FlowkitError(f"`n` must be a positive number of seeds; got {n!r}")
+    n = count(n, "n", what=" (number of seeds)")
     pts, box = random_seeds(flow, int(n), np.random.default_rng(seed), bounds)
-    orbits = orbit_ftle(flow, pts, time, settings, threshold=threshold, threads=threads)
+    orbits = orbit_ftle(flow, pts, time, settings, threshold=threshold, threads=threads, max_seconds=max_seconds,
+                        progress=progress)
     used = np.isfinite(orbits.values)
     n_used = int(used.sum())
+    n_run = int(np.sum(orbits.outcome >= 0))
     if n_used == 0:
         raise FlowkitError("no orbit finished, so no fraction can be estimated; see the outcome counts")
     k = int(np.sum(orbits.chaotic))
@@ -250,5 +302,5 @@ def chaotic_fraction(
     prov = dict(orbits.provenance)
     prov["method"] = dict(prov["method"], seeds=int(n), rng_seed=seed, bounds=box,
                           error="binomial standard error sqrt(f(1-f)/n)")
-    return ChaoticFraction(f, math.sqrt(f * (1 - f) / n_used), k, n_used, int(n) - n_used, orbits.threshold,
-                           orbits.time, orbits, box, prov)
+    return ChaoticFraction(f, math.sqrt(f * (1 - f) / n_used), k, n_used, n_run - n_used, orbits.threshold,
+                           orbits.time, orbits, box, orbits.partial, list(orbits.notes), prov)

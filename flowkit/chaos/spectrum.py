@@ -20,28 +20,28 @@ The tangent-space helpers live in :mod:`flowkit.chaos.tangent`.
 
 from __future__ import annotations
 
-import json
 import math
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 
 from flowkit.chaos.tangent import (
-    TangentRun, _json_ready, dop853_settings, method_record, n_exponents, read_npz, require_flow, run_tangent,
-    tangent_states, write_npz,
+    TangentRun, dop853_settings, method_record, n_exponents, require_flow, run_tangent, tangent_states,
 )
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
-from flowkit.integrate.batch import IntegratorSettings, check_seeds
-from flowkit.integrate.outcomes import OUTCOME_NAMES, Outcome
+from flowkit.integrate.batch import IntegratorSettings
+from flowkit.integrate.outcomes import OUTCOME_NAMES, Outcome, outcome_notes
+from flowkit.progress import Budget
+from flowkit.results import Result, plain
+from flowkit.validation import count, finite, points_in_domain, positive
 from flowkit.validation import duration as check_time
 
 __all__ = ["Spectrum", "lyapunov_spectrum"]
 
 
 @dataclass
-class Spectrum:
+class Spectrum(Result):
     """Lyapunov spectrum of one orbit, with error bars and a convergence verdict.
 
     Attributes
@@ -80,7 +80,12 @@ class Spectrum:
     outcome: str
     steps: int
     seconds: float
+    partial: bool = False
     provenance: dict = field(default_factory=dict)
+
+    _ARRAYS = ("exponents", "stderr", "point", "times", "running", "block_means")
+    _DIMS = {"exponents": ("exponent",), "stderr": ("exponent",), "point": ("xyz",), "times": ("time",),
+             "running": ("time", "exponent"), "block_means": ("block", "exponent")}
 
     @property
     def sum(self) -> float:
@@ -93,64 +98,21 @@ class Spectrum:
         b = self.block_means.sum(axis=1)
         return float(np.std(b, ddof=1) / math.sqrt(len(b))) if len(b) > 1 else math.nan
 
-    def to_dict(self) -> dict:
-        """JSON-ready summary (no running estimate)."""
-        return {
-            "exponents": self.exponents.tolist(), "stderr": self.stderr.tolist(),
+    def summary(self) -> dict:
+        """Exponents with errors, the verdict and the sanity figures (what ``--json`` prints)."""
+        return plain({
+            "exponents": self.exponents, "stderr": self.stderr,
             "converged": self.converged, "reason": self.reason, "sum": self.sum,
             "sum_stderr": self.sum_stderr, "mean_divergence": self.mean_divergence,
-            "tolerance": self.tolerance, "point": self.point.tolist(), "time": self.time,
+            "tolerance": self.tolerance, "point": self.point, "time": self.time,
             "transient": self.transient, "t0": self.t0, "outcome": self.outcome, "steps": self.steps,
-            "seconds": self.seconds, "provenance": self.provenance,
-        }
+            "seconds": self.seconds, "partial": self.partial,
+        })
 
-    def to_xarray(self):
-        """The running estimate as an ``xarray.Dataset`` (dims ``time``, ``exponent``)."""
-        import xarray as xr
-
-        k = len(self.exponents)
-        ds = xr.Dataset(
-            {"running": (("time", "exponent"), self.running),
-             "block_means": (("block", "exponent"), self.block_means),
-             "exponents": (("exponent",), self.exponents), "stderr": (("exponent",), self.stderr)},
-            coords={"time": self.times, "exponent": np.arange(1, k + 1), "block": np.arange(len(self.block_means))},
-        )
-        summary = self.to_dict()
-        ds.attrs["flowkit_result"] = "Spectrum"
-        ds.attrs["summary"] = json.dumps(_json_ready(summary))
-        return ds
-
-    def save(self, path) -> Path:
-        """Write to ``.npz`` (arrays + JSON metadata) or ``.json`` (summary and arrays as lists)."""
-        path = Path(path)
-        arrays = {"times": self.times, "running": self.running, "block_means": self.block_means}
-        if path.suffix == ".json":
-            data = self.to_dict()
-            data.update({k: v.tolist() for k, v in arrays.items()})
-            path.write_text(json.dumps(_json_ready({"flowkit_result": "Spectrum", **data}), indent=1))
-            return path
-        if path.suffix != ".npz":
-            raise FlowkitError(f"`path` must end in .npz or .json; got {path.name!r}")
-        return write_npz(path, arrays, {"flowkit_result": "Spectrum", **self.to_dict()})
-
-    @classmethod
-    def load(cls, path) -> "Spectrum":
-        """Read a file written by :meth:`save` (no code is executed)."""
-        path = Path(path)
-        if path.suffix == ".json":
-            meta = json.loads(path.read_text())
-            arrays = {k: np.asarray(meta.pop(k), dtype=float) for k in ("times", "running", "block_means")}
-        else:
-            arrays, meta = read_npz(path)
-        if meta.pop("flowkit_result", None) != "Spectrum":
-            raise FlowkitError(f"{path} does not hold a flowkit Spectrum")
-        for key in ("sum", "sum_stderr"):
-            meta.pop(key, None)
-        for key in ("exponents", "stderr", "point"):
-            meta[key] = np.array([np.nan if v is None else v for v in meta[key]], dtype=float)
-        if meta["mean_divergence"] is None:
-            meta["mean_divergence"] = math.nan
-        return cls(**meta, **arrays)
+    def headline(self) -> list:
+        rows = [(f"lambda_{i + 1}", float(e), float(s)) for i, (e, s) in enumerate(zip(self.exponents, self.stderr))]
+        return rows + [("sum", self.sum, self.sum_stderr), ("mean divergence", self.mean_divergence, None),
+                       ("converged", self.converged, None)]
 
     def __str__(self) -> str:
         vals = ", ".join(f"{e:+.5f} ± {s:.1e}" for e, s in zip(self.exponents, self.stderr))
@@ -170,6 +132,8 @@ def lyapunov_spectrum(
     blocks: int = 20,
     tolerance: float | None = None,
     settings: IntegratorSettings | None = None,
+    max_seconds: float | None = None,
+    progress: bool | None = None,
 ) -> Spectrum:
     """Full Lyapunov spectrum of the orbit through ``point``.
 
@@ -196,10 +160,16 @@ def lyapunov_spectrum(
         may have a standard error up to 1 % of itself.
     settings : IntegratorSettings, optional
         DOP853 tolerances (default rtol 1e-10, atol 1e-12).
+    max_seconds : float, optional
+        Wall-clock budget: the run stops after the first block that ends past
+        it and returns what finished, flagged ``partial`` (not converged).
+    progress : bool, optional
+        A progress bar over blocks once the run lasts 2 s (default); False: never.
 
     Returns
     -------
     Spectrum
+        Ctrl-C between blocks also returns the finished blocks, flagged ``partial``.
 
     Notes
     -----
@@ -216,16 +186,11 @@ def lyapunov_spectrum(
     flow = require_flow(flow)
     time = check_time(time)
     settings = dop853_settings(settings)
-    transient = 0.1 * time if transient is None else float(transient)
-    if not (math.isfinite(transient) and transient >= 0):
-        raise FlowkitError(f"`transient` must be a non-negative time; got {transient!r}")
-    if not (isinstance(blocks, (int, np.integer)) and blocks >= 4):
-        raise FlowkitError(f"`blocks` must be an integer >= 4 (for a standard error); got {blocks!r}")
-    if not (isinstance(intervals, (int, np.integer)) and intervals >= 1):
-        raise FlowkitError(f"`intervals` must be a positive integer; got {intervals!r}")
-    if not math.isfinite(float(t0)):
-        raise FlowkitError(f"`t0` must be finite; got {t0!r}")
-    x0 = check_seeds(flow, point, "point")
+    transient = 0.1 * time if transient is None else positive(transient, "transient", allow_zero=True, what="time")
+    blocks = count(blocks, "blocks", minimum=4, what=" (for a standard error)")
+    intervals = count(intervals, "intervals")
+    t0 = finite(t0, "t0")
+    x0 = points_in_domain(flow, point, "point")
     if x0.shape[0] != 1:
         raise FlowkitError(f"`point` must be one point (x, y, z); got {x0.shape[0]} points")
 
@@ -235,7 +200,9 @@ def lyapunov_spectrum(
     n_tr = int(math.ceil(transient / tau - 1e-9))
     times = float(t0) + tau * np.arange(n_tr + n_keep + 1)
     k = n_exponents(flow)
-    run, interrupted = _run_in_pieces(flow, tangent_states(x0, k), times, settings, n_tr, per_block)
+    budget = Budget(total=blocks + (1 if n_tr else 0), desc=f"Lyapunov {flow.name}", unit="block",
+                    progress=progress, max_seconds=max_seconds)
+    run = _run_in_pieces(flow, tangent_states(x0, k), times, settings, n_tr, per_block, budget)
 
     logs = run.logs[0, n_tr:]
     div = run.div[0, n_tr:]
@@ -243,12 +210,12 @@ def lyapunov_spectrum(
     usable = (done // per_block) * per_block
     outcome = OUTCOME_NAMES[int(run.outcome[0])]
     reasons = []
-    if interrupted:
-        reasons.append(f"interrupted at t = {run.t_end[0]:.6g}; {done} of {n_keep} averaging intervals were "
-                       "completed and are kept")
+    if budget.partial:
+        reasons.append(f"{budget.reason} (at t = {run.t_end[0]:.6g}; {done} of {n_keep} averaging intervals)")
     elif run.outcome[0] != Outcome.FINISHED:
         reasons.append(f"orbit ended early ({outcome}) at t = {run.t_end[0]:.6g}; "
                        f"{done} of {n_keep} averaging intervals were completed")
+        reasons += outcome_notes(run.outcome)
     nb = usable // per_block
     if nb >= 2:
         block_means = logs[:usable].reshape(nb, per_block, k).sum(axis=1) / (per_block * tau)
@@ -277,15 +244,16 @@ def lyapunov_spectrum(
         exponents=exps, stderr=stderr, converged=not reasons, reason="; ".join(reasons),
         mean_divergence=mean_div, tolerance=tol, point=x0[0].copy(), time=time, transient=n_tr * tau,
         t0=float(t0), times=times[n_tr + 1: n_tr + 1 + done], running=running, block_means=block_means,
-        outcome=outcome, steps=int(run.steps[0]), seconds=run.seconds, provenance=provenance,
+        outcome=outcome, steps=int(run.steps[0]), seconds=run.seconds, partial=budget.partial,
+        provenance=provenance,
     )
 
 
-def _run_in_pieces(flow, Y, times, settings, n_tr, per_block) -> tuple[TangentRun, bool]:
-    """Run the transient, then one block at a time, so Ctrl-C keeps the finished blocks.
+def _run_in_pieces(flow, Y, times, settings, n_tr, per_block, budget: Budget) -> TangentRun:
+    """Run the transient, then one block at a time under ``budget`` (progress, time, Ctrl-C).
 
-    Returns the joined run and whether it was interrupted. The step budget
-    ``settings.max_steps`` covers the whole run.
+    Returns the joined run of the finished pieces (``budget.partial`` says whether
+    it stopped early). The step budget ``settings.max_steps`` covers the whole run.
     """
     m = len(times) - 1
     ncol = (Y.shape[1] - 3) // 3
@@ -294,8 +262,8 @@ def _run_in_pieces(flow, Y, times, settings, n_tr, per_block) -> tuple[TangentRu
     cuts = ([0, n_tr] if n_tr else [0]) + list(range(n_tr + per_block, m + 1, per_block))
     if cuts[-1] != m:
         cuts.append(m)
-    try:
-        for a, b in zip(cuts[:-1], cuts[1:]):
+    with budget:
+        for a, b in budget.iterate(zip(cuts[:-1], cuts[1:])):
             left = int(settings.max_steps - joined.steps[0])
             run = run_tangent(flow, Y, times[a:b + 1], settings, max_steps=max(left, 1))
             joined.logs[:, a:b] = run.logs
@@ -306,9 +274,7 @@ def _run_in_pieces(flow, Y, times, settings, n_tr, per_block) -> tuple[TangentRu
             joined.seconds += run.seconds
             if run.outcome[0] != Outcome.FINISHED:
                 break
-    except KeyboardInterrupt:
-        return joined, True
-    return joined, False
+    return joined
 
 
 def _convergence_problems(block_means, exps, stderr, mean_div, tol, nb, blocks) -> list[str]:

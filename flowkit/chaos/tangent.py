@@ -8,17 +8,14 @@ check the flow and integrator and build the method record of a provenance.
 from __future__ import annotations
 
 import datetime
-import json
 import time as _time
 from dataclasses import dataclass
-from pathlib import Path
 
 import numba
 import numpy as np
 
 from flowkit._version import __version__
 from flowkit.errors import FlowkitError
-from flowkit.results.encoding import plain
 from flowkit.flows.base import Flow
 from flowkit.integrate.batch import IntegratorSettings, thread_limit
 
@@ -122,24 +119,3 @@ def method_record(settings: IntegratorSettings, **extra) -> dict:
            "date": datetime.datetime.now(datetime.timezone.utc).isoformat(timespec="seconds")}
     rec.update(extra)
     return rec
-
-
-def _json_ready(obj):
-    return plain(obj)
-
-
-def write_npz(path: Path, arrays: dict, meta: dict) -> Path:
-    """Arrays plus a JSON metadata string in one ``.npz`` (reloads with ``allow_pickle=False``)."""
-    path = Path(path)
-    np.savez_compressed(path, __meta__=np.array(json.dumps(_json_ready(meta))), **arrays)
-    return path
-
-
-def read_npz(path: Path) -> tuple[dict, dict]:
-    """Inverse of :func:`write_npz`: (arrays, meta)."""
-    with np.load(Path(path), allow_pickle=False) as data:
-        arrays = {k: data[k] for k in data.files if k != "__meta__"}
-        meta = json.loads(str(data["__meta__"]))
-    return arrays, meta
-
-

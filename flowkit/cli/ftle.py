@@ -46,8 +46,6 @@ def parse_resolution(text: str) -> tuple[int, int]:
 
 
 def run(args) -> dict:
-    import numpy as np
-
     from flowkit.chaos import GridPlane, ftle_field
     from flowkit.integrate.batch import IntegratorSettings
 
@@ -69,13 +67,12 @@ def run(args) -> dict:
     compile_s = time.perf_counter() - t0
     field = ftle_field(flow, plane, resolution, args.time, t0=args.t0, settings=settings, threads=args.threads,
                        direction="backward" if args.backward else "forward")
-    ok = field.values[np.isfinite(field.values)]
+    s = field.summary()
     res = {
-        "flow": flow.name, "parameters": flow.param_dict, "plane": field.plane, "resolution": list(resolution),
-        "time": field.time, "t0": field.t0, "direction": field.direction, "integrator": settings.as_dict(),
-        "ftle_min": float(ok.min()) if ok.size else None, "ftle_max": float(ok.max()) if ok.size else None,
-        "ftle_mean": float(ok.mean()) if ok.size else None, "outcomes": field.outcomes,
-        "seconds": field.seconds, "compile_seconds": compile_s,
+        "flow": flow.name, "parameters": flow.param_dict, "resolution": list(resolution),
+        "integrator": settings.as_dict(), **{k: s[k] for k in ("plane", "time", "t0", "direction")},
+        "ftle_min": s["min"], "ftle_max": s["max"], "ftle_mean": s["mean"], "outcomes": s["outcomes"],
+        "seconds": s["seconds"], "compile_seconds": compile_s,
     }
     if args.out:
         res["out"] = str(field.save(args.out))

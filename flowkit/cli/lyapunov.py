@@ -35,8 +35,8 @@ def warm_tangent(flow) -> float:
 
 
 def run(args) -> dict:
-    from flowkit.integrate.batch import IntegratorSettings
     from flowkit.chaos import lyapunov_spectrum
+    from flowkit.integrate.batch import IntegratorSettings
 
     flow = flow_from_args(args)
     point = parse_vector(args.point, "--point")
@@ -44,8 +44,7 @@ def run(args) -> dict:
     compile_s = warm_tangent(flow)
     spec = lyapunov_spectrum(flow, point, args.time, transient=args.transient, t0=args.t0, blocks=args.blocks,
                              settings=settings)
-    out = spec.to_dict()
-    out.pop("provenance")
+    out = spec.summary()
     out.update(flow=flow.name, parameters=flow.param_dict, compile_seconds=compile_s,
                gradient=flow.family.gradient_method)
     if args.out:

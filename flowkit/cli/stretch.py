@@ -44,17 +44,17 @@ def _orders(text: str) -> list[float]:
         raise FlowkitError(f"--p expects comma-separated numbers, e.g. --p 0.5,3; got {text!r}") from None
 
 
-def _rate(est) -> dict:
-    d = est.to_dict()
+def _rate(d: dict) -> dict:
+    """A rate from a result summary, as printed: value, error bar, fit window."""
     return {"value": d["value"], "stderr": d["stderr"], "window": d["window"]}
 
 
 def run(args) -> dict:
     from flowkit.cli.common import flow_from_args
     from flowkit.errors import FlowkitError
-    from flowkit.integrate.batch import IntegratorSettings
     from flowkit.fields import stretch
     from flowkit.flows.maps import is_map
+    from flowkit.integrate.batch import IntegratorSettings
 
     system = flow_from_args(args)
     mapping = is_map(system)
@@ -74,14 +74,15 @@ def run(args) -> dict:
     transient = int(args.transient) if mapping and float(args.transient).is_integer() else args.transient
     res = stretch(system, args.particles, duration, p=_orders(args.orders), samples=args.samples,
                   transient=transient, settings=settings, seed=args.seed)
+    s = res.summary()
     out = {
-        "flow": system.name, "parameters": system.param_dict, "units": res.units, "time": duration,
-        "lyapunov": _rate(res.lyapunov),
-        "moment_rates": {k: _rate(v) for k, v in zip((f"{p:g}" for p in res.moment_rates),
-                                                      res.moment_rates.values())},
-        "effective_particles": {f"{k:g}": v for k, v in res.effective_particles.items()},
-        "particles": {"requested": res.n_requested, "used": res.n_used}, "outcomes": res.outcomes,
-        "mean_divergence": res.mean_divergence, "partial": res.partial, "notes": list(res.notes),
+        "flow": system.name, "parameters": system.param_dict, "units": s["units"], "time": duration,
+        "lyapunov": _rate(s["lyapunov"]),
+        "moment_rates": {k: _rate(v) for k, v in s["moment_rates"].items()},
+        "effective_particles": s["effective_particles"],
+        "particles": {"requested": s["particles"]["requested"], "used": s["particles"]["used"]},
+        "outcomes": s["outcomes"], "mean_divergence": s["mean_divergence"], "partial": s["partial"],
+        "notes": s["notes"],
     }
     out["line_stretching"], out["line"] = _line(system, duration, args, settings)
     out["flux_rate"], out["flux"] = _flux(system, duration, args, settings)
@@ -100,11 +101,10 @@ def _line(system, duration, args, settings):
         return _skipped("skipped (--line-points 0)"), None
     if getattr(system, "kind", "") == "system":
         return _skipped("not computed for ODE systems (no material lines); use a flow or a map"), None
-    res = material_line(system, duration, max_points=max(args.line_points, 16), settings=settings)
-    info = {"final_time": float(res.times[-1]), "final_points": int(res.npoints[-1]),
-            "final_length": float(res.lengths[-1]), "stopped": res.stopped, "memory_bytes": res.memory_bytes,
-            "cut_segments": res.cut_segments, "notes": res.notes}
-    return _rate(res.rate), info
+    s = material_line(system, duration, max_points=max(args.line_points, 16), settings=settings).summary()
+    info = {k: s[k] for k in ("final_time", "final_points", "final_length", "stopped", "memory_bytes",
+                              "cut_segments", "notes")}
+    return _rate(s["line_stretching"]), info
 
 
 def _flux(system, duration, args, settings):
@@ -114,11 +114,10 @@ def _flux(system, duration, args, settings):
         return _skipped("skipped (--flux-samples 0)"), None
     if getattr(system, "kind", "") == "system" or getattr(system, "domain", "") == "unbounded":
         return _skipped("not computed: needs a flow in a bounded or periodic domain, or a map"), None
-    res = flux_growth(system, duration, samples=max(args.flux_samples, 2), settings=settings, seed=args.seed)
-    info = {"unsigned_rate": _rate(res.unsigned_rate), "final_ratio": res.to_dict()["final_ratio"],
-            "final_ratio_stderr": res.to_dict()["final_ratio_stderr"], "surface": res.surface,
-            "field": res.field, "notes": res.notes}
-    return _rate(res.flux_rate), info
+    s = flux_growth(system, duration, samples=max(args.flux_samples, 2), settings=settings, seed=args.seed).summary()
+    info = {"unsigned_rate": _rate(s["unsigned_rate"]),
+            **{k: s[k] for k in ("final_ratio", "final_ratio_stderr", "surface", "field", "notes")}}
+    return _rate(s["flux_rate"]), info
 
 
 def human(result: dict) -> str:

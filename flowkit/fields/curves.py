@@ -9,7 +9,9 @@ from typing import Callable
 import numpy as np
 
 from flowkit.errors import FlowkitError
+from flowkit.fields.surfaces import plane_basis
 from flowkit.flows.maps import is_map
+from flowkit.validation import positive, vector
 
 __all__ = ["Curve", "segment", "circle", "curve", "default_curve", "default_spacing"]
 
@@ -32,8 +34,8 @@ class Curve:
 
 def segment(a, b) -> Curve:
     """The straight segment from ``a`` to ``b`` (open curve)."""
-    a = _vec(a, "a")
-    b = _vec(b, "b")
+    a = vector(a, "a")
+    b = vector(b, "b")
     if np.allclose(a, b):
         raise FlowkitError("segment end points `a` and `b` coincide; give two different points")
     return Curve(lambda s: a + s[:, None] * (b - a), False, {"segment": [a.tolist(), b.tolist()]})
@@ -41,14 +43,10 @@ def segment(a, b) -> Curve:
 
 def circle(center, radius: float, normal=(0.0, 0.0, 1.0)) -> Curve:
     """The circle of ``radius`` around ``center`` in the plane with unit ``normal`` (closed curve)."""
-    c = _vec(center, "center")
-    n = _vec(normal, "normal")
-    if not (math.isfinite(radius) and radius > 0):
-        raise FlowkitError(f"`radius` must be positive; got {radius!r}")
-    n = n / np.linalg.norm(n)
-    e1 = np.cross(n, [1.0, 0, 0] if abs(n[0]) < 0.9 else [0, 1.0, 0])
-    e1 /= np.linalg.norm(e1)
-    e2 = np.cross(n, e1)
+    c = vector(center, "center")
+    n = vector(normal, "normal", unit=True)
+    radius = positive(radius, "radius")
+    e1, e2 = plane_basis(n)
     r = float(radius)
 
     def f(s):
@@ -63,13 +61,6 @@ def curve(func: Callable, closed: bool = False, name: str = "user curve") -> Cur
     if not callable(func):
         raise FlowkitError("`func` must be callable: labels (M,) -> points (M, 3)")
     return Curve(func, bool(closed), {"callable": name})
-
-
-def _vec(v, name) -> np.ndarray:
-    arr = np.asarray(v, dtype=np.float64)
-    if arr.shape != (3,) or not np.all(np.isfinite(arr)):
-        raise FlowkitError(f"`{name}` must be three finite numbers; got {v!r}")
-    return arr
 
 
 def default_curve(system) -> Curve:

@@ -60,7 +60,7 @@ from flowkit.fields.rates import RateEstimate, jackknife_stderr, ols_weights, wi
 from flowkit.fields.results import FluxResult
 from flowkit.fields.surfaces import Surface, default_surface, disc, patch  # noqa: F401
 from flowkit.flows.maps import is_map
-from flowkit.progress import progress_bar
+from flowkit.progress import Budget
 
 __all__ = ["FluxResult", "Surface", "disc", "patch", "flux_growth"]
 
@@ -79,7 +79,8 @@ def flux_growth(
     settings=None,
     seed: int = 0,
     threads: int | None = None,
-    progress: bool = False,
+    progress: bool | None = None,
+    max_seconds: float | None = None,
 ) -> FluxResult:
     """Net and unsigned flux of a frozen-in field through a fixed surface, and their growth rates.
 
@@ -112,8 +113,11 @@ def flux_growth(
         Random seed of the sample points.
     threads : int, optional
         Numba threads.
-    progress : bool
-        Progress bar over backward sweeps.
+    progress : bool, optional
+        A progress bar over backward sweeps once the run lasts 2 s (default); False: never.
+    max_seconds : float, optional
+        Wall-clock budget, checked between sweeps: the checkpoints finished so far
+        are returned, flagged ``partial`` (as after Ctrl-C).
 
     Returns
     -------
@@ -152,11 +156,12 @@ def flux_growth(
     sign[0] = np.sign(B0(X) @ S.normal)
     outcome = np.zeros(M, dtype=np.int8)
     done = 1
-    partial = False
     sweeps = _sweeps(system, marks)
-    bar = progress_bar(sweeps, progress, "sweep")
-    try:
-        for k_list, path in bar:
+    with Budget(total=len(marks) - 1, desc=f"flux {getattr(system, 'name', '')}", unit="checkpoint",
+                progress=progress, max_seconds=max_seconds) as budget:
+        for k_list, path in sweeps:
+            if budget.expired():
+                break
             Y = np.zeros((M, 9))
             Y[:, :3] = X
             Y[:, 3:6] = S.a
@@ -175,20 +180,18 @@ def flux_growth(
                 loglocal[k, outcome != 0] = -np.inf
                 sign[k, outcome != 0] = 0.0
                 done = max(done, k + 1)
-    except KeyboardInterrupt:
-        if done < 2:
-            raise
-        partial = True
-    finally:
-        if hasattr(bar, "close"):
-            bar.close()
+                budget.advance(1)
+                if budget.expired():
+                    break
+    partial = budget.partial
     seconds = _time.perf_counter() - t0
     ok = outcome == Outcome.FINISHED
     times = marks[:done].astype(float)
     stats = _flux_stats(loglocal[:done], sign[:done], ok, gid, G, S.area)
     notes = []
     if partial:
-        notes.append(f"interrupted: checkpoints up to t = {times[-1]:g} are kept")
+        notes.append(f"{'interrupted' if budget.interrupted else 'stopped at the time budget `max_seconds`'}: "
+                     f"checkpoints up to t = {times[-1]:g} are kept")
     if not ok.all():
         notes.append(f"{int((~ok).sum())} of {M} sample points failed on the way back (see `outcomes`) and are "
                      "left out; the surface integral then covers only the rest")

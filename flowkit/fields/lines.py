@@ -50,7 +50,7 @@ from flowkit.fields.particles import (
 from flowkit.fields.rates import RateEstimate, block_rate
 from flowkit.fields.results import LineResult
 from flowkit.flows.maps import is_map
-from flowkit.progress import progress_bar
+from flowkit.progress import Budget
 
 __all__ = ["Curve", "LineResult", "circle", "curve", "material_line", "segment"]
 
@@ -86,7 +86,8 @@ def material_line(
     snapshot_points: int = 20_000,
     settings=None,
     threads: int | None = None,
-    progress: bool = False,
+    progress: bool | None = None,
+    max_seconds: float | None = None,
 ) -> LineResult:
     """Advect a material curve with adaptive point insertion; measure its length growth.
 
@@ -125,8 +126,11 @@ def material_line(
         DOP853 tolerances (default rtol 1e-9, atol 1e-12).
     threads : int, optional
         Numba threads.
-    progress : bool
-        Show a progress bar over passes.
+    progress : bool, optional
+        A progress bar over passes once the run lasts 2 s (default); False: never.
+    max_seconds : float, optional
+        Wall-clock budget, checked between passes: the line and lengths so far are
+        returned (``stopped == "max_seconds"``, ``partial``), as after Ctrl-C.
 
     Returns
     -------
@@ -194,9 +198,9 @@ def material_line(
         return ncut
 
     cut_count = record(0, line, cuts)
-    bar = progress_bar(range(1, len(marks)), progress, "pass")
-    try:
-        for k in bar:
+    with Budget(total=len(marks) - 1, desc=f"material line {getattr(system, 'name', '')}", unit="pass",
+                progress=progress, max_seconds=max_seconds, keep_empty=True) as budget:
+        for k in budget.iterate(range(1, len(marks))):
             live = line.outcome == Outcome.FINISHED
             X = line.X.copy()
             oc = line.outcome.copy()
@@ -215,11 +219,8 @@ def material_line(
             if len(line.labels) >= max_points:
                 stopped = "max_points" if k < len(marks) - 1 else "time"
                 break
-    except KeyboardInterrupt:
-        stopped = "interrupted"
-    finally:
-        if hasattr(bar, "close"):
-            bar.close()
+    if budget.partial:
+        stopped = "interrupted" if budget.interrupted else "max_seconds"
     if snaps and snaps[-1][0] != rec_t[-1]:
         snaps.append((rec_t[-1], _thin(line, snapshot_points)))
     seconds = _time.perf_counter() - t_start
@@ -273,6 +274,8 @@ def _line_notes(stopped, line, cuts, cut_fraction, times, T, max_points) -> list
         notes.append(f"stopped at t = {times[-1]:g} of {T:g}: the point budget ({max_points}) was reached")
     if stopped == "interrupted":
         notes.append(f"interrupted: lengths up to t = {times[-1]:g} are kept")
+    if stopped == "max_seconds":
+        notes.append(f"stopped at the time budget `max_seconds`: lengths up to t = {times[-1]:g} of {T:g} are kept")
     failed = int(np.sum(line.outcome != Outcome.FINISHED))
     if failed:
         notes.append(f"{failed} point(s) failed (left the domain or became non-finite); their segments are "

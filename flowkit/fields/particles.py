@@ -7,7 +7,6 @@ through the map kernel (:func:`flowkit.flows.maps.run_map`).
 
 from __future__ import annotations
 
-import math
 from typing import NamedTuple
 
 import numpy as np
@@ -15,7 +14,8 @@ import numpy as np
 from flowkit._version import __version__
 from flowkit.errors import FlowkitError
 from flowkit.flows.maps import is_map
-from flowkit.integrate.batch import IntegratorSettings, check_seeds, integrate_states
+from flowkit.integrate.batch import IntegratorSettings, integrate_states
+from flowkit.validation import count, duration, points, points_in_domain, positive
 
 
 def check_system(system, name: str = "flow"):
@@ -37,13 +37,7 @@ def check_duration(system, time, name: str = "time"):
             raise FlowkitError(f"`{name}` is a number of iterations for map '{system.name}': a positive integer; "
                                f"got {time!r}")
         return int(time)
-    try:
-        val = float(time)
-    except (TypeError, ValueError):
-        raise FlowkitError(f"`{name}` must be a positive number; got {time!r}") from None
-    if not (math.isfinite(val) and val > 0):
-        raise FlowkitError(f"`{name}` must be a positive, finite duration; got {time!r}")
-    return val
+    return duration(time, name, backward_hint=False)
 
 
 def units(system) -> str:
@@ -52,8 +46,7 @@ def units(system) -> str:
 
 def checkpoints(system, time, samples: int) -> np.ndarray:
     """Checkpoint times 0 .. time (``samples`` stretches; maps: distinct iteration counts)."""
-    if not (isinstance(samples, (int, np.integer)) and samples >= 2):
-        raise FlowkitError(f"`samples` must be an integer >= 2 (number of checkpoints); got {samples!r}")
+    samples = count(samples, "samples", minimum=2, what=" (number of checkpoints)")
     if is_map(system):
         return np.unique(np.round(np.linspace(0, time, min(samples, time) + 1)).astype(np.int64))
     return np.linspace(0.0, float(time), samples + 1)
@@ -74,12 +67,8 @@ def default_seeds(system, n: int, rng: np.random.Generator) -> np.ndarray:
 def check_points(system, seeds, name: str = "seeds") -> np.ndarray:
     """Validated (N, 3) starting points inside the domain."""
     if not is_map(system):
-        return check_seeds(system, seeds, name)
-    arr = np.asarray(seeds, dtype=np.float64)
-    if arr.ndim == 1 and arr.size == 3:
-        arr = arr[None, :]
-    if arr.ndim != 2 or arr.shape[1] != 3 or arr.shape[0] == 0:
-        raise FlowkitError(f"`{name}` must be a non-empty array of shape (N, 3); got shape {np.shape(seeds)}")
+        return points_in_domain(system, seeds, name)
+    arr = points(seeds, name)
     inside = system.contains(arr)
     if not np.all(inside):
         bad = int(np.flatnonzero(~inside)[0])
@@ -171,9 +160,6 @@ def check_transient(system, transient):
         if not (isinstance(transient, (int, np.integer)) or float(transient).is_integer()) or transient < 0:
             raise FlowkitError(f"`transient` is a number of iterations for maps (integer >= 0); got {transient!r}")
         return int(transient)
-    tr = float(transient)
-    if not (math.isfinite(tr) and tr >= 0):
-        raise FlowkitError(f"`transient` must be a non-negative time; got {transient!r}")
-    return tr
+    return positive(transient, "transient", allow_zero=True, what="time")
 
 

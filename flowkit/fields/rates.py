@@ -11,11 +11,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from flowkit.errors import FlowkitError
+from flowkit.results.encoding import value_type
 
 __all__ = ["RateEstimate", "ols_weights", "fit_slope", "window_mask", "jackknife_stderr", "block_rate",
            "mean_rate"]
 
 
+@value_type
 @dataclass
 class RateEstimate:
     """A growth rate with its error bar and the window it was fitted over.
@@ -41,11 +43,6 @@ def _num(x) -> float | None:
     x = float(x)
     return x if math.isfinite(x) else None
 
-
-def _rate_from(d: dict) -> RateEstimate:
-    val = math.nan if d["value"] is None else d["value"]
-    err = math.nan if d["stderr"] is None else d["stderr"]
-    return RateEstimate(val, err, tuple(d["window"]), d["method"])
 
 def ols_weights(t: np.ndarray) -> np.ndarray:
     """Weights w with sum(w * y) = least-squares slope of y against ``t``."""

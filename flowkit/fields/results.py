@@ -2,20 +2,21 @@
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from flowkit.errors import FlowkitError
 from flowkit.fields.rates import RateEstimate, _num
-from flowkit.fields.saved import SavedResult
 from flowkit.integrate.outcomes import outcome_counts
+from flowkit.results import Result, plain
 
 __all__ = ["StretchResult", "LineResult", "FluxResult"]
 
 
 @dataclass
-class StretchResult(SavedResult):
+class StretchResult(Result):
     """Stretching statistics of an ensemble of field vectors (see :mod:`flowkit.fields.vectors`).
 
     Attributes
@@ -76,8 +77,11 @@ class StretchResult(SavedResult):
     _ARRAYS = ("times", "p", "log_moments", "log_moments_stderr", "mean_log", "mean_log_stderr", "seeds",
                "initial_field", "particle_rates", "final_log_field", "final_direction", "final_positions",
                "outcome", "series")
-    _RATES = ("lyapunov", "field_rate")
-    _RATE_DICTS = ("moment_rates",)
+    _DIMS = {"times": ("time",), "p": ("p",), "log_moments": ("time", "p"), "log_moments_stderr": ("time", "p"),
+             "mean_log": ("time",), "mean_log_stderr": ("time",), "seeds": ("particle", "xyz"),
+             "initial_field": ("particle", "xyz"), "particle_rates": ("particle",),
+             "final_log_field": ("particle",), "final_direction": ("particle", "xyz"),
+             "final_positions": ("particle", "xyz"), "outcome": ("particle",), "series": ("particle", "time")}
 
     @property
     def final_field(self) -> np.ndarray:
@@ -92,9 +96,9 @@ class StretchResult(SavedResult):
             raise FlowkitError(f"no moment of order {p}; computed orders: {sorted(self.moment_rates)}")
         return self.moment_rates[key]
 
-    def to_dict(self) -> dict:
-        """JSON-ready summary (rates, counts, window, provenance; no per-particle arrays)."""
-        return {
+    def summary(self) -> dict:
+        """Rates with error bars, counts, window (what ``--json`` prints; no per-particle arrays)."""
+        return plain({
             "lyapunov": self.lyapunov.to_dict(),
             "moment_rates": {_pkey(k): v.to_dict() for k, v in self.moment_rates.items()},
             "field_rate": self.field_rate.to_dict(),
@@ -103,20 +107,12 @@ class StretchResult(SavedResult):
             "particles": {"requested": self.n_requested, "run": self.n_run, "used": self.n_used},
             "outcomes": self.outcomes, "mean_divergence": _num(self.mean_divergence),
             "partial": self.partial, "notes": list(self.notes), "seconds": self.seconds,
-            "provenance": self.provenance,
-        }
+        })
 
-    def to_xarray(self):
-        """Time series and per-particle data as an ``xarray.Dataset`` (summary JSON in ``attrs``)."""
-        return self._dataset(
-            {"log_moments": (("time", "p"), self.log_moments),
-             "log_moments_stderr": (("time", "p"), self.log_moments_stderr),
-             "mean_log": (("time",), self.mean_log), "mean_log_stderr": (("time",), self.mean_log_stderr),
-             "particle_rates": (("particle",), self.particle_rates),
-             "final_log_field": (("particle",), self.final_log_field),
-             "seeds": (("particle", "xyz"), self.seeds), "outcome": (("particle",), self.outcome)},
-            {"time": self.times, "p": self.p, "particle": np.arange(len(self.seeds)), "xyz": ["x", "y", "z"]},
-        )
+    def headline(self) -> list:
+        rows = [("Lyapunov (mean log-stretching)", self.lyapunov.value, self.lyapunov.stderr)]
+        rows += [(f"L({k:g})", v.value, v.stderr) for k, v in self.moment_rates.items()]
+        return rows + [("particles used", self.n_used, None), ("units", self.units, None)]
 
     def __str__(self) -> str:
         lines = [f"mean log-stretching rate {self.lyapunov} {self.units}"]
@@ -135,7 +131,7 @@ def _pkey(p: float) -> str:
 
 
 @dataclass
-class LineResult(SavedResult):
+class LineResult(Result):
     """Length history of a material line (see :mod:`flowkit.fields.lines`).
 
     Attributes
@@ -181,50 +177,43 @@ class LineResult(SavedResult):
     notes: list
     provenance: dict = field(default_factory=dict)
 
-    _ARRAYS = ("times", "lengths", "npoints", "length_error", "labels", "positions", "outcome")
-    _RATES = ("rate",)
+    _ARRAYS = ("times", "lengths", "npoints", "length_error", "labels", "positions", "outcome", "snapshots")
+    _DIMS = {"times": ("pass",), "lengths": ("pass",), "npoints": ("pass",), "length_error": ("pass",),
+             "labels": ("point",), "positions": ("point", "xyz"), "outcome": ("point",)}
+
+    def _arrays(self):
+        # snapshots are (time, points) pairs: stored as a dict of arrays keyed by the exact time
+        as_dict = {repr(float(t)): np.asarray(pts) for t, pts in self.snapshots}
+        return Result._arrays(dataclasses.replace(self, snapshots=as_dict))
+
+    @classmethod
+    def _from_parts(cls, fields: dict, arrays: dict):
+        arrays = dict(arrays, snapshots=[(float(k), v) for k, v in (arrays.get("snapshots") or {}).items()])
+        return super()._from_parts(fields, arrays)
 
     @property
     def partial(self) -> bool:
-        return self.stopped == "interrupted"
+        return self.stopped in ("interrupted", "max_seconds")
 
     @property
     def outcomes(self) -> dict:
         return outcome_counts(self.outcome)
 
-    def to_dict(self) -> dict:
-        """JSON-ready summary."""
-        return {
+    def summary(self) -> dict:
+        """Line-stretching rate, final length and points, memory (what ``--json`` prints)."""
+        return plain({
             "line_stretching": self.rate.to_dict(), "units": self.units, "stopped": self.stopped,
             "partial": self.partial, "final_time": float(self.times[-1]), "final_length": float(self.lengths[-1]),
             "final_points": int(self.npoints[-1]), "length_error": _num(self.length_error[-1]),
             "cut_segments": self.cut_segments, "cut_length": self.cut_length, "outcomes": self.outcomes,
             "memory_bytes": self.memory_bytes, "peak_bytes": self.peak_bytes,
             "peak_rss_bytes": self.peak_rss_bytes, "seconds": self.seconds, "notes": list(self.notes),
-            "provenance": self.provenance,
-        }
+        })
 
-    def to_xarray(self):
-        """Length history as an ``xarray.Dataset`` (summary JSON in ``attrs``)."""
-        return self._dataset({"length": (("time",), self.lengths), "npoints": (("time",), self.npoints),
-                              "length_error": (("time",), self.length_error)}, {"time": self.times})
-
-    def _save_arrays(self) -> dict:
-        arrays = super()._save_arrays()
-        arrays["snapshot_times"] = np.array([t for t, _ in self.snapshots])
-        arrays.update({f"snapshot_{i}": pts for i, (_, pts) in enumerate(self.snapshots)})
-        return arrays
-
-    def _fields_json(self) -> dict:
-        out = super()._fields_json()
-        out.pop("snapshots")
-        return out
-
-    @classmethod
-    def _restore(cls, fields: dict, arrays: dict) -> dict:
-        times = arrays.pop("snapshot_times")
-        fields["snapshots"] = [(float(t), arrays.pop(f"snapshot_{i}")) for i, t in enumerate(times)]
-        return {**fields, **arrays}
+    def headline(self) -> list:
+        return [("line stretching", self.rate.value, self.rate.stderr), ("final length", float(self.lengths[-1]), None),
+                ("final points", int(self.npoints[-1]), None), ("stopped", self.stopped, None),
+                ("units", self.units, None)]
 
     def __str__(self) -> str:
         return (f"line-stretching exponent {self.rate} {self.units}; length {self.lengths[0]:.4g} -> "
@@ -233,7 +222,7 @@ class LineResult(SavedResult):
 
 
 @dataclass
-class FluxResult(SavedResult):
+class FluxResult(Result):
     """Net and unsigned flux through a fixed surface (see :mod:`flowkit.fields.flux`).
 
     Attributes
@@ -268,7 +257,7 @@ class FluxResult(SavedResult):
     provenance: dict = field(default_factory=dict)
 
     _ARRAYS = ("times", "log_unsigned", "ratio", "ratio_stderr")
-    _RATES = ("flux_rate", "unsigned_rate")
+    _DIMS = {"times": ("time",), "log_unsigned": ("time",), "ratio": ("time",), "ratio_stderr": ("time",)}
 
     @property
     def unsigned(self) -> np.ndarray:
@@ -287,21 +276,20 @@ class FluxResult(SavedResult):
         with np.errstate(over="ignore"):
             return self.ratio_stderr * np.exp(self.log_unsigned)
 
-    def to_dict(self) -> dict:
-        """JSON-ready summary."""
-        return {
+    def summary(self) -> dict:
+        """Net and unsigned flux rates, final net/unsigned ratio (what ``--json`` prints)."""
+        return plain({
             "flux_rate": self.flux_rate.to_dict(), "unsigned_rate": self.unsigned_rate.to_dict(),
             "final_ratio": _num(self.ratio[-1]), "final_ratio_stderr": _num(self.ratio_stderr[-1]),
             "final_log_unsigned": _num(self.log_unsigned[-1]), "area": self.area, "surface": self.surface,
             "field": self.field, "samples": self.samples, "outcomes": self.outcomes, "units": self.units,
             "partial": self.partial, "notes": list(self.notes), "seconds": self.seconds,
-            "provenance": self.provenance,
-        }
+        })
 
-    def to_xarray(self):
-        """Flux history as an ``xarray.Dataset`` (summary JSON in ``attrs``)."""
-        return self._dataset({"log_unsigned": (("time",), self.log_unsigned), "ratio": (("time",), self.ratio),
-                              "ratio_stderr": (("time",), self.ratio_stderr)}, {"time": self.times})
+    def headline(self) -> list:
+        return [("net flux rate", self.flux_rate.value, self.flux_rate.stderr),
+                ("unsigned flux rate", self.unsigned_rate.value, self.unsigned_rate.stderr),
+                ("final net/unsigned", float(self.ratio[-1]), float(self.ratio_stderr[-1])), ("units", self.units, None)]
 
     def __str__(self) -> str:
         return (f"net flux rate {self.flux_rate} {self.units}; unsigned flux rate {self.unsigned_rate}; "

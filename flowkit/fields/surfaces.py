@@ -9,6 +9,7 @@ import numpy as np
 
 from flowkit.errors import FlowkitError
 from flowkit.flows.maps import is_map
+from flowkit.validation import positive, vector
 
 __all__ = ["Surface", "disc", "patch", "default_surface"]
 
@@ -40,36 +41,26 @@ class Surface:
         return self.origin + u[:, None] * np.asarray(eu) + v[:, None] * np.asarray(ev)
 
 
-def _unit(v, name) -> np.ndarray:
-    arr = np.asarray(v, dtype=np.float64)
-    if arr.shape != (3,) or not np.all(np.isfinite(arr)) or not np.linalg.norm(arr) > 0:
-        raise FlowkitError(f"`{name}` must be a non-zero vector of three finite numbers; got {v!r}")
-    return arr / np.linalg.norm(arr)
+def plane_basis(n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Orthonormal (a, b) with a x b = n, for a unit normal ``n`` (discs, circles)."""
+    a = np.cross(n, [1.0, 0, 0] if abs(n[0]) < 0.9 else [0, 1.0, 0])
+    a /= np.linalg.norm(a)
+    return a, np.cross(n, a)
 
 
 def disc(center, normal, radius: float) -> Surface:
     """The flat disc of ``radius`` around ``center`` with unit ``normal``."""
-    c = np.asarray(center, dtype=np.float64)
-    if c.shape != (3,) or not np.all(np.isfinite(c)):
-        raise FlowkitError(f"`center` must be three finite numbers; got {center!r}")
-    n = _unit(normal, "normal")
-    if not (math.isfinite(radius) and radius > 0):
-        raise FlowkitError(f"`radius` must be positive; got {radius!r}")
-    a = np.cross(n, [1.0, 0, 0] if abs(n[0]) < 0.9 else [0, 1.0, 0])
-    a /= np.linalg.norm(a)
-    b = np.cross(n, a)
+    c = vector(center, "center")
+    n = vector(normal, "normal", unit=True)
+    radius = positive(radius, "radius")
+    a, b = plane_basis(n)
     return Surface("disc", c, a, b, (float(radius),), math.pi * radius**2,
                    {"disc": {"center": c.tolist(), "normal": n.tolist(), "radius": float(radius)}})
 
 
 def patch(origin, edge_u, edge_v) -> Surface:
     """The parallelogram ``origin + u edge_u + v edge_v``, u, v in [0, 1]; normal along edge_u x edge_v."""
-    o = np.asarray(origin, dtype=np.float64)
-    eu = np.asarray(edge_u, dtype=np.float64)
-    ev = np.asarray(edge_v, dtype=np.float64)
-    for name, v in (("origin", o), ("edge_u", eu), ("edge_v", ev)):
-        if v.shape != (3,) or not np.all(np.isfinite(v)):
-            raise FlowkitError(f"`{name}` must be three finite numbers; got {v!r}")
+    o, eu, ev = vector(origin, "origin"), vector(edge_u, "edge_u"), vector(edge_v, "edge_v")
     cr = np.cross(eu, ev)
     area = float(np.linalg.norm(cr))
     if not area > 0:

@@ -70,7 +70,8 @@ from flowkit.fields.results import StretchResult
 from flowkit.flows.maps import is_map
 from flowkit.integrate.batch import IntegratorSettings
 from flowkit.integrate.outcomes import Outcome, outcome_counts
-from flowkit.progress import progress_bar
+from flowkit.progress import Budget
+from flowkit.validation import count
 
 __all__ = ["StretchResult", "stretch"]
 
@@ -123,7 +124,8 @@ def stretch(
     seed: int = 0,
     threads: int | None = None,
     keep_series: bool = False,
-    progress: bool = False,
+    progress: bool | None = None,
+    max_seconds: float | None = None,
 ) -> StretchResult:
     """Stretching statistics of frozen-in field vectors carried by an ensemble of particles.
 
@@ -167,8 +169,11 @@ def stretch(
         Numba threads (default: all).
     keep_series : bool
         Keep every particle's ln|B(t)| (memory N x (samples+1)).
-    progress : bool
-        Show a progress bar over chunks.
+    progress : bool, optional
+        A progress bar over chunks once the run lasts 2 s (default); False: never.
+    max_seconds : float, optional
+        Wall-clock budget, checked between chunks: the statistics of the finished
+        chunks are returned, flagged ``partial`` (as after Ctrl-C).
 
     Returns
     -------
@@ -201,33 +206,26 @@ def stretch(
     mask = window_mask(times, window)
     weights = np.zeros(K1)
     weights[mask] = ols_weights(times[mask])
-    if not (isinstance(groups, (int, np.integer)) and groups >= 1):
-        raise FlowkitError(f"`groups` must be a positive integer; got {groups!r}")
+    groups = count(groups, "groups", what=" (jackknife groups)")
     G = int(min(groups, N))
     if chunk is None:
         chunk = int(min(8192, max(256, -(-N // 8))))
-    if not (isinstance(chunk, (int, np.integer)) and chunk >= 1):
-        raise FlowkitError(f"`chunk` must be a positive integer; got {chunk!r}")
+    chunk = count(chunk, "chunk", what=" (particles per kernel call)")
     tr = check_transient(system, transient)
     Q = np.unique(np.concatenate([orders, 2 * orders]))
 
     t_start = _time.perf_counter()
     chunks: list[_Chunk] = []
-    partial = False
-    starts = range(0, N, int(chunk))
-    bar = progress_bar(starts, progress, "chunk of particles")
-    try:
-        for s in bar:
+    with Budget(total=N, desc=f"stretch {getattr(system, 'name', '')}", unit="particle", progress=progress,
+                max_seconds=max_seconds) as budget:
+        for s in range(0, N, int(chunk)):
+            if budget.expired():
+                break
             idx = np.arange(s, min(N, s + int(chunk)))
             chunks.append(_run_chunk(system, X0[idx], B0[idx], idx, marks, tr, settings, threads, weights, Q,
                                      G, quantity, keep_series))
-    except KeyboardInterrupt:
-        if not chunks:
-            raise
-        partial = True
-    finally:
-        if hasattr(bar, "close"):
-            bar.close()
+            budget.advance(idx.size)
+    partial = budget.reason   # "" when every chunk finished
     seconds = _time.perf_counter() - t_start
     prov = provenance_of(system, settings, algorithm=_ALGORITHM, samples=int(samples), transient=tr,
                          groups=G, chunk=int(chunk), seed=seed, quantity=quantity,
@@ -337,8 +335,7 @@ def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quanti
     n = int(count.sum())
     notes = []
     if partial:
-        notes.append(f"interrupted: statistics over the {n_run} particles finished before the interrupt "
-                     f"(of {N} requested)")
+        notes.append(f"{partial}: statistics over the {n_run} particles finished (of {N} requested)")
     if n < n_run:
         notes.append(f"{n_run - n} particle(s) did not finish (see `outcomes`) and are left out of the statistics")
     if n == 0:
@@ -380,7 +377,7 @@ def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quanti
         mean_log=mean, mean_log_stderr=mean_err, lyapunov=lyap, moment_rates=mrates, field_rate=field_rate,
         effective_particles=neff, window=win, units=unit, quantity=quantity, n_requested=N, n_run=n_run, n_used=n,
         outcomes=outcome_counts(outcome[outcome >= 0]), mean_divergence=div_sum / n / (times[-1] - times[0]),
-        partial=partial, notes=notes, seeds=X0, initial_field=B0, particle_rates=rates, final_log_field=final_log,
+        partial=bool(partial), notes=notes, seeds=X0, initial_field=B0, particle_rates=rates, final_log_field=final_log,
         final_direction=final_dir, final_positions=final_pos, outcome=outcome, seconds=seconds, series=series,
         provenance=prov,
     )

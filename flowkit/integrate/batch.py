@@ -100,22 +100,13 @@ class BatchResult:
 
 
 def check_seeds(flow: Flow, seeds, name: str = "seeds") -> np.ndarray:
-    """(N, 3) float array of finite seeds inside the flow's domain, or a clear error."""
-    arr = np.asarray(seeds, dtype=np.float64)
-    if arr.ndim == 1 and arr.size == 3:
-        arr = arr[None, :]
-    if arr.ndim != 2 or arr.shape[1] != 3 or arr.shape[0] == 0:
-        raise FlowkitError(f"`{name}` must be a non-empty array of shape (N, 3); got shape {np.shape(seeds)}")
-    if not np.all(np.isfinite(arr)):
-        raise FlowkitError(f"`{name}` contains NaN or infinite coordinates")
-    inside = flow.contains(arr)
-    if not np.all(inside):
-        bad = np.flatnonzero(~inside)
-        raise FlowkitError(
-            f"`{name}` row {bad[0]} ({arr[bad[0]].tolist()}) lies outside the domain of '{flow.name}' "
-            f"({flow.domain}); {len(bad)} seed(s) in all. Move them inside (r <= 1 for the unit ball)."
-        )
-    return np.ascontiguousarray(arr)
+    """(N, 3) float array of finite seeds inside the flow's domain, or a clear error.
+
+    The shared check :func:`flowkit.validation.points_in_domain`, under its old name.
+    """
+    from flowkit.validation import points_in_domain
+
+    return points_in_domain(flow, seeds, name)
 
 
 def prepare_states(states, t0: float, t1: float) -> np.ndarray:

@@ -3,7 +3,9 @@
 A result is a dataclass deriving from :class:`Result`. It names its array fields
 in ``_ARRAYS`` (each holds an ndarray, ``None``, or a dict of ndarrays) and,
 optionally, their dimension names in ``_DIMS``; every other field is stored as
-tagged JSON. From that alone it gets:
+tagged JSON. A field holding another result (e.g. the two sections a tolerance
+check compares) is named in ``_PARTS`` and stored inside the same file, its
+arrays and dimensions prefixed ``<field>.``. From that alone it gets:
 
 - ``save(path)``: ``.npz``, ``.nc`` or ``.json`` by suffix (never pickle), the
   path checked before writing and a fallback copy if the write fails;
@@ -41,6 +43,8 @@ class Result:
 
     _ARRAYS: ClassVar[tuple[str, ...]] = ()
     _DIMS: ClassVar[dict[str, tuple[str, ...]]] = {}
+    #: fields that hold another Result (stored in the same file, prefixed "<field>.")
+    _PARTS: ClassVar[tuple[str, ...]] = ()
     #: name written to files; defaults to the class name
     kind: ClassVar[str] = ""
 
@@ -66,7 +70,8 @@ class Result:
 
     # -- storage ---------------------------------------------------------------------
     def _fields(self) -> dict:
-        return {f.name: getattr(self, f.name) for f in dataclasses.fields(self) if f.name not in self._ARRAYS}
+        skip = set(self._ARRAYS) | set(self._PARTS)
+        return {f.name: getattr(self, f.name) for f in dataclasses.fields(self) if f.name not in skip}
 
     def _arrays(self) -> tuple[dict[str, np.ndarray], dict]:
         """Flat arrays to store and the layout that regroups them."""
@@ -86,12 +91,26 @@ class Result:
 
     def _parts(self):
         arrays, layout = self._arrays()
+        fields = self._fields()
+        for name in self._PARTS:
+            sub = getattr(self, name)
+            if sub is None:
+                layout[name] = None
+                continue
+            sub_header, fields[name], sub_arrays = sub._parts()
+            layout[name] = {"part": sub_header["kind"], "module": sub_header["module"], "layout": sub_header["layout"]}
+            arrays.update({f"{name}.{k}": v for k, v in sub_arrays.items()})
         header = {"kind": self.kind, "module": type(self).__module__, "flowkit_version": __version__,
                   "layout": layout}
-        return header, self._fields(), arrays
+        return header, fields, arrays
 
     def _dims(self) -> dict:
-        return dict(self._DIMS)
+        dims = dict(self._DIMS)
+        for name in self._PARTS:
+            sub = getattr(self, name)
+            if sub is not None:  # a part's dimensions are its own (two sections differ in length)
+                dims.update({f"{name}.{k}": tuple(f"{name}.{d}" for d in v) for k, v in sub._dims().items()})
+        return dims
 
     def save(self, path) -> Path:
         """Write this result to ``path`` (``.npz``, ``.nc`` or ``.json``); returns the path written.
@@ -192,13 +211,24 @@ def load(path):
     Only flowkit's own result classes can be built, and no code from the file runs.
     """
     header, fields, arrays = files.read(path)
-    kind = header["kind"]
-    cls = _result_class(kind, header.get("module"), path)
-    layout = header.get("layout") or {}
+    return _build(header["kind"], header.get("module"), header.get("layout") or {}, fields, arrays, path)
+
+
+def _build(kind: str, module, layout: dict, fields: dict, arrays: dict, path):
+    """One result (and, recursively, its parts) from stored fields and flat arrays."""
+    cls = _result_class(kind, module, path)
     regrouped: dict[str, Any] = {}
     for name, lay in layout.items():
         if lay is None:
             regrouped[name] = None
+        elif isinstance(lay, dict) and isinstance(lay.get("part"), str):
+            prefix = f"{name}."
+            sub_arrays = {k[len(prefix):]: v for k, v in arrays.items() if k.startswith(prefix)}
+            sub_fields = fields.get(name)
+            if not isinstance(sub_fields, dict):
+                raise FlowkitError(f"{path}: the fields of part {name!r} are missing")
+            regrouped[name] = _build(lay["part"], lay.get("module"), lay.get("layout") or {}, sub_fields,
+                                     sub_arrays, path)
         elif lay == "array":
             if name not in arrays:
                 raise FlowkitError(f"{path}: array {name!r} is missing")

@@ -165,7 +165,8 @@ def _read_nc(path: Path, where: str):
         if HEADER not in ds.attrs:
             raise FlowkitError(f"{where} is a netCDF file but not a flowkit result (no {HEADER} attribute)")
         meta = json.loads(ds.attrs[HEADER])
-        raw = {k: np.asarray(v.values) for k, v in ds.data_vars.items()}
+        # variables, not data_vars: an array named like its dimension comes back as a coordinate
+        raw = {str(k): np.asarray(v.values) for k, v in ds.variables.items()}
     arrays = {}
     for k, v in raw.items():
         if k.endswith("__imag"):

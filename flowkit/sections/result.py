@@ -1,8 +1,7 @@
-"""The :class:`Section` result: crossings, per-orbit bookkeeping, provenance, I/O."""
+"""The :class:`Section` result: crossings, per-orbit bookkeeping, provenance (files by the results protocol)."""
 
 from __future__ import annotations
 
-import json
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -11,15 +10,15 @@ import numpy as np
 
 from flowkit.errors import FlowkitError
 from flowkit.integrate.outcomes import OUTCOME_NAMES, outcome_counts
+from flowkit.results import Result
 
 #: per-crossing arrays, per-orbit arrays (saved under these names)
 CROSSING_ARRAYS = ("points", "coords", "time", "orbit", "crossing_direction")
 ORBIT_ARRAYS = ("seeds", "outcome", "t_end", "steps", "counts")
-_VALUE_PREFIX = "orbit_value__"
 
 
 @dataclass(eq=False)
-class Section:
+class Section(Result):
     """A Poincaré section of one or more orbits.
 
     Attributes
@@ -64,6 +63,11 @@ class Section:
     geometry: dict
     provenance: dict
     orbit_values: dict = field(default_factory=dict)
+
+    _ARRAYS = CROSSING_ARRAYS + ORBIT_ARRAYS + ("orbit_values",)
+    _DIMS = {"points": ("crossing", "xyz"), "coords": ("crossing", "uv"), "time": ("crossing",),
+             "orbit": ("crossing",), "crossing_direction": ("crossing",), "seeds": ("orbit_id", "xyz"),
+             "outcome": ("orbit_id",), "t_end": ("orbit_id",), "steps": ("orbit_id",), "counts": ("orbit_id",)}
 
     # -- summaries ---------------------------------------------------------------
     @property
@@ -121,96 +125,30 @@ class Section:
         return self
 
     def summary(self) -> dict:
-        """JSON-ready counts: crossings, orbits, outcomes."""
+        """JSON-ready counts: crossings, orbits, outcomes (what ``--json`` prints)."""
         return {"crossings_total": self.crossings_total, "orbits": self.n_orbits, "outcomes": self.outcomes}
 
-    # -- files -------------------------------------------------------------------
-    def save(self, path) -> Path:
-        """Write an ``.npz`` (no pickle): the arrays plus geometry and provenance as JSON strings."""
-        path = Path(path)
-        arrays = {name: getattr(self, name) for name in CROSSING_ARRAYS + ORBIT_ARRAYS}
-        arrays.update({_VALUE_PREFIX + k: np.asarray(v) for k, v in self.orbit_values.items()})
-        arrays["geometry"] = np.array(json.dumps(self.geometry))
-        arrays["provenance"] = np.array(json.dumps(_jsonable(self.provenance)))
-        with open(path, "wb") as fh:
-            np.savez_compressed(fh, **arrays)
-        return path
+    def headline(self) -> list:
+        return [("orbits", self.n_orbits, None), ("crossings", self.crossings_total, None),
+                *[(name, n, None) for name, n in self.outcomes.items()]]
 
-    @classmethod
-    def load(cls, path) -> "Section":
-        """Read a section written by :meth:`save` (never executes code: ``allow_pickle=False``)."""
-        try:
-            data = np.load(Path(path), allow_pickle=False)
-        except (OSError, ValueError) as exc:
-            raise FlowkitError(f"cannot read section file {str(path)!r}: {exc}") from None
-        with data:
-            missing = [k for k in CROSSING_ARRAYS + ORBIT_ARRAYS + ("geometry", "provenance") if k not in data]
-            if missing:
-                raise FlowkitError(f"{str(path)!r} is not a flowkit section file (missing {', '.join(missing)})")
-            kw = {k: data[k] for k in CROSSING_ARRAYS + ORBIT_ARRAYS}
-            values = {k[len(_VALUE_PREFIX):]: data[k] for k in data.files if k.startswith(_VALUE_PREFIX)}
-            return cls(**kw, geometry=json.loads(str(data["geometry"])),
-                       provenance=json.loads(str(data["provenance"])), orbit_values=values)
-
-    def to_xarray(self):
-        """An :class:`xarray.Dataset` with dimensions ``crossing``, ``orbit_id``, ``xyz``, ``uv``.
-
-        Geometry and provenance are JSON strings in the attributes (netCDF-safe).
-        """
-        import xarray as xr
-
-        ds = xr.Dataset(
-            {
-                "points": (("crossing", "xyz"), self.points),
-                "coords": (("crossing", "uv"), self.coords),
-                "time": (("crossing",), self.time),
-                "orbit": (("crossing",), self.orbit.astype(np.int32)),
-                "crossing_direction": (("crossing",), self.crossing_direction.astype(np.int8)),
-                "seeds": (("orbit_id", "xyz"), self.seeds),
-                "outcome": (("orbit_id",), self.outcome.astype(np.int8),
-                            {"flag_values": list(OUTCOME_NAMES), "flag_meanings": " ".join(
-                                n.replace(" ", "_") for n in OUTCOME_NAMES.values())}),
-                "t_end": (("orbit_id",), self.t_end),
-                # int32 and int8 only, so that every netCDF engine (netCDF3 too) can write them
-                "steps": (("orbit_id",), self.steps.astype(np.int32)),
-                "counts": (("orbit_id",), self.counts.astype(np.int32)),
-                **{_VALUE_PREFIX + k: (("orbit_id",), np.asarray(v)) for k, v in self.orbit_values.items()},
-            },
-            coords={"xyz": ["x", "y", "z"], "uv": ["u", "v"]},
-            attrs={"title": "Poincaré section (flowkit)", "geometry": json.dumps(self.geometry),
-                   "provenance": json.dumps(_jsonable(self.provenance))},
-        )
-        return ds
-
-    @classmethod
-    def from_xarray(cls, ds) -> "Section":
-        """Inverse of :meth:`to_xarray`."""
-        kw = {k: np.asarray(ds[k].values) for k in CROSSING_ARRAYS + ORBIT_ARRAYS}
-        for k in ("orbit", "steps", "counts"):
-            kw[k] = kw[k].astype(np.int64)
-        values = {k[len(_VALUE_PREFIX):]: np.asarray(ds[k].values) for k in ds.data_vars if k.startswith(_VALUE_PREFIX)}
-        return cls(**kw, geometry=json.loads(ds.attrs["geometry"]), provenance=json.loads(ds.attrs["provenance"]),
-                   orbit_values=values)
+    # -- files (the results protocol: save by suffix, flowkit.load) -----------------
+    def _dims(self) -> dict:
+        dims = dict(self._DIMS)
+        dims.update({f"orbit_values__{i}": ("orbit_id",) for i in range(len(self.orbit_values))})
+        return dims
 
     def to_netcdf(self, path) -> Path:
-        """Write a netCDF file through xarray (:meth:`to_xarray`)."""
-        self.to_xarray().to_netcdf(path)
-        return Path(path)
+        """Write a netCDF file (same as ``save`` with a ``.nc`` path)."""
+        if Path(path).suffix.lower() != ".nc":
+            raise FlowkitError(f"`path` {str(path)!r} must end in .nc for to_netcdf (or use save(path))")
+        return self.save(path)
 
     @classmethod
     def load_netcdf(cls, path) -> "Section":
-        import xarray as xr
-
-        with xr.open_dataset(path) as ds:
-            return cls.from_xarray(ds.load())
+        """Read a netCDF file written by :meth:`to_netcdf` (same as :meth:`load`)."""
+        return cls.load(path)
 
     def __repr__(self) -> str:
         flow = self.provenance.get("flow", "?")
         return f"Section({flow!r}, orbits={self.n_orbits}, crossings={self.crossings_total}, outcomes={self.outcomes})"
-
-
-def _jsonable(obj):
-    """Provenance as plain JSON values (inf/nan as strings, so they round-trip)."""
-    from flowkit.jsonable import json_ready
-
-    return json_ready(obj, nonfinite="string")
