@@ -367,3 +367,27 @@ def test_material_ribbon_per_period_and_bad_input():
     with pytest.raises(FlowkitError, match="parallel to the curve's tangent"):
         tangent = lambda s: np.roll(_loop(s), -1, axis=0) - _loop(s)  # noqa: E731
         material_ribbon(flowkit.flow("stf"), time=1.0, curve=_loop, normals=lambda s: tangent(s) * 0)
+
+
+# -- command line -------------------------------------------------------------------------------------
+def test_cli_loop_reads_curve_files_and_names_bad_lines(tmp_path, capsys):
+    """`flowkit loop --file ... --link ...`: the (2, 3) torus knot links its core 3 times (as above)."""
+    import json
+
+    import flowkit
+    from flowkit.cli import main
+
+    t = np.arange(300) / 300
+    np.savetxt(tmp_path / "knot.txt", torus_knot(2, 3, 1.0, 0.3)(t))
+    np.savetxt(tmp_path / "core.txt", circle()(t))
+    assert main(["loop", "--file", str(tmp_path / "knot.txt"), "--link", str(tmp_path / "core.txt"),
+                 "--save", str(tmp_path / "lk.json"), "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert abs(out["linking"]["integer"]) == 3 and out["linking"]["defect"] < 1e-9
+    assert flowkit.load(tmp_path / "lk.json").integer == out["linking"]["integer"]
+    (tmp_path / "bad.txt").write_text("0 0 0\n1 0 0\n1 nan 0\n0 1 0\n")
+    assert main(["loop", "--file", str(tmp_path / "bad.txt"), "--json"]) == 2
+    assert "bad.txt, line 3: coordinates must be finite" in json.loads(capsys.readouterr().out)["error"]
+    (tmp_path / "latin.txt").write_bytes("0 0 0 # caf\xe9\n".encode("latin-1"))
+    assert main(["loop", "--file", str(tmp_path / "latin.txt"), "--json"]) == 2
+    assert "not UTF-8" in json.loads(capsys.readouterr().out)["error"]

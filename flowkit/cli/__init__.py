@@ -18,7 +18,7 @@ import sys
 from flowkit.errors import FlowkitError
 
 #: Subcommand modules, in the order shown by ``flowkit --help``.
-COMMANDS = ["flows", "describe", "check", "section", "periodic", "lyapunov", "ftle", "stretch", "dynamo", "sweep", "cache"]
+COMMANDS = ["flows", "describe", "check", "section", "periodic", "lyapunov", "ftle", "stretch", "dynamo", "loop", "sweep", "cache"]
 
 
 def _jsonable(obj):
