@@ -174,3 +174,40 @@ def test_old_module_paths_still_import():
             old in __import__("sys").modules
         for name in getattr(target, "__all__", ()):
             assert getattr(mod, name) is getattr(target, name)
+
+
+# -- the command line prints what the results say -------------------------------------
+def _cli_json(capsys, *argv) -> dict:
+    import json
+
+    from flowkit.cli import main
+
+    assert main([*argv, "--json"]) == 0
+    return json.loads(capsys.readouterr().out)
+
+
+def _same(cli: dict, summary: dict, skip=("seconds",)):
+    """Every key of the result's summary appears in the CLI output with the same value (timings aside)."""
+    import json
+
+    summary = json.loads(json.dumps(summary))
+    for k, v in summary.items():
+        if k in skip:
+            continue
+        assert k in cli, f"--json lacks summary key {k!r}"
+        assert cli[k] == v, f"--json {k!r}: {cli[k]!r} vs summary {v!r}"
+
+
+def test_cli_json_is_the_result_summary(capsys, tmp_path):
+    # the same deterministic computation through the API and the command line
+    import flowkit
+
+    spec = flowkit.lyapunov_spectrum(flowkit.flow("lorenz"), [1.0, 1.0, 20.0], 4.0, blocks=4)
+    _same(_cli_json(capsys, "lyapunov", "lorenz", "--point", "1,1,20", "--time", "4", "--blocks", "4"),
+          spec.summary())
+    seeds = tmp_path / "seeds.txt"
+    seeds.write_text("1.0 2.0 0.5\n2.5 0.5 1.0\n")
+    sec = flowkit.poincare_section(flowkit.flow("abc"), [[1.0, 2.0, 0.5], [2.5, 0.5, 1.0]], crossings=5,
+                                   plane=flowkit.Plane((0, 1, 0), 0.0, "+"))
+    _same(_cli_json(capsys, "section", "abc", "--seed-file", str(seeds), "--crossings", "5", "--normal", "0,1,0",
+                    "--direction", "+"), sec.summary())
