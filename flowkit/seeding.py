@@ -15,12 +15,7 @@ import numpy as np
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
 from flowkit.sections.geometry import Plane
-
-
-def _count(n, name: str) -> int:
-    if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 1:
-        raise FlowkitError(f"`{name}` must be a positive integer; got {n!r}")
-    return int(n)
+from flowkit.validation import count
 
 
 def _inside(points: np.ndarray, flow: Flow | None) -> np.ndarray:
@@ -39,7 +34,7 @@ def line_in_plane(plane: Plane, start, stop, n: int, flow: Flow | None = None) -
 
     With ``flow``, points outside its domain are dropped.
     """
-    n = _count(n, "n")
+    n = count(n, "n")
     a = np.asarray(start, dtype=np.float64)
     b = np.asarray(stop, dtype=np.float64)
     if a.shape != (2,) or b.shape != (2,):
@@ -51,7 +46,7 @@ def line_in_plane(plane: Plane, start, stop, n: int, flow: Flow | None = None) -
 
 def line(start, stop, n: int, flow: Flow | None = None) -> np.ndarray:
     """``n`` evenly spaced seeds on the 3-D segment from ``start`` to ``stop``."""
-    n = _count(n, "n")
+    n = count(n, "n")
     a = np.asarray(start, dtype=np.float64).reshape(3)
     b = np.asarray(stop, dtype=np.float64).reshape(3)
     s = np.linspace(0.0, 1.0, n)
@@ -60,8 +55,8 @@ def line(start, stop, n: int, flow: Flow | None = None) -> np.ndarray:
 
 def grid_in_plane(plane: Plane, u_range, v_range, nu: int, nv: int, flow: Flow | None = None) -> np.ndarray:
     """A ``nu`` x ``nv`` grid of seeds over ``u_range`` x ``v_range`` of the plane (row-major in u)."""
-    nu = _count(nu, "nu")
-    nv = _count(nv, "nv")
+    nu = count(nu, "nu")
+    nv = count(nv, "nv")
     u = np.linspace(*u_range, nu)
     v = np.linspace(*v_range, nv)
     U, V = np.meshgrid(u, v, indexing="ij")
@@ -77,7 +72,7 @@ def across_domain(flow: Flow, plane: Plane, n: int) -> np.ndarray:
     symmetry axis through the centre (often an invariant line ending at a
     stagnation point, whose orbit never crosses the plane).
     """
-    n = _count(n, "n")
+    n = count(n, "n")
     if flow.domain == "ball":
         rad = math.sqrt(max(0.0, 1.0 - plane.offset**2))
         if rad == 0.0:
@@ -93,7 +88,7 @@ def across_domain(flow: Flow, plane: Plane, n: int) -> np.ndarray:
 
 def random_in_domain(flow: Flow, n: int, seed: int | None = 0) -> np.ndarray:
     """``n`` points uniformly distributed in the flow's domain (unbounded: the box [-2, 2]^3)."""
-    n = _count(n, "n")
+    n = count(n, "n")
     rng = np.random.default_rng(seed)
     if flow.domain == "ball":
         v = rng.normal(size=(n, 3))
