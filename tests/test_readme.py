@@ -1,0 +1,103 @@
+"""Every code block of the README runs as written.
+
+The Python blocks build on each other like the cells of one notebook: they are
+written, in order, into one script that runs in a fresh interpreter in a
+temporary folder (``FLOWKIT_QUICK=1``, ``MPLBACKEND=Agg``), with a marker
+printed before each block so a failure names the block. Each command of a
+``bash`` block (continuation lines joined) runs in that folder with the
+project's ``flowkit`` and ``python`` first on ``PATH``, as after
+``source .venv/bin/activate``.
+
+A block or a command whose text contains ``(not run by the README test`` is
+skipped: that visible comment says why (it opens a browser, runs the whole
+test suite, runs for minutes). The test checks that few are skipped.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+README = ROOT / "README.md"
+SKIP = "(not run by the README test"
+#: At most this many commands or blocks may carry the skip marker.
+MAX_SKIPPED = 14
+
+
+def readme_blocks(text: str) -> list[tuple[str, str, int]]:
+    """(language, body, line number) of every fenced code block."""
+    out = []
+    for m in re.finditer(r"^```(\w*)\n(.*?)^```", text, re.S | re.M):
+        out.append((m.group(1), m.group(2), text[:m.start()].count("\n") + 1))
+    return out
+
+
+def shell_commands(body: str) -> list[str]:
+    """The commands of a bash block: continuation lines joined, comments and blank lines dropped."""
+    joined = re.sub(r"\\\n\s*", " ", body)
+    return [line for line in joined.splitlines() if line.strip() and not line.lstrip().startswith("#")]
+
+
+def _env(tmp: Path) -> dict:
+    env = dict(os.environ, FLOWKIT_QUICK="1", MPLBACKEND="Agg", PYTHONPATH=str(ROOT))
+    env["PATH"] = f"{Path(sys.executable).parent}{os.pathsep}{env.get('PATH', '')}"
+    return env
+
+
+def test_readme_blocks_are_found_and_few_are_skipped():
+    blocks = readme_blocks(README.read_text())
+    langs = {lang for lang, _, _ in blocks}
+    assert {"python", "bash"} <= langs and len(blocks) >= 10
+    skipped = sum(SKIP in body for lang, body, _ in blocks if lang == "python")
+    skipped += sum(SKIP in cmd for lang, body, _ in blocks if lang == "bash" for cmd in shell_commands(body))
+    assert skipped <= MAX_SKIPPED, f"{skipped} README commands are skipped by the README test"
+    assert "Using flowkit after set-up" in README.read_text()
+
+
+def test_readme_python_blocks_run(tmp_path):
+    parts = []
+    for k, (lang, body, line) in enumerate(readme_blocks(README.read_text())):
+        if lang != "python" or SKIP in body:
+            continue
+        parts.append(f"print('README block at line {line}', flush=True)\n{body}")
+    script = tmp_path / "readme_blocks.py"
+    script.write_text("\n".join(parts))
+    tic = time.perf_counter()
+    run = subprocess.run([sys.executable, str(script)], cwd=tmp_path, env=_env(tmp_path), capture_output=True,
+                         text=True, timeout=600)
+    seconds = time.perf_counter() - tic
+    last = [ln for ln in run.stdout.splitlines() if ln.startswith("README block at line")]
+    assert run.returncode == 0, f"{last[-1] if last else 'README'} failed:\n{run.stderr[-3000:]}"
+    print(f"README Python blocks: {seconds:.1f} s")
+
+
+def _commands():
+    out = []
+    for lang, body, line in readme_blocks(README.read_text()):
+        if lang != "bash":
+            continue
+        for cmd in shell_commands(body):
+            if SKIP not in cmd:
+                out.append(pytest.param(cmd, id=f"line{line}:{cmd.split('#')[0].strip()[:50]}"))
+    return out
+
+
+@pytest.fixture(scope="module")
+def shell_dir(tmp_path_factory):
+    return tmp_path_factory.mktemp("readme-shell")
+
+
+@pytest.mark.parametrize("cmd", _commands())
+def test_readme_shell_commands_run(cmd, shell_dir):
+    # `bash run.sh ...` is run from the repository (that is where the README says to type it)
+    cwd = ROOT if cmd.lstrip().startswith("bash run.sh") else shell_dir
+    run = subprocess.run(["bash", "-c", f"set -o pipefail; {cmd}"], cwd=cwd, env=_env(shell_dir),
+                         capture_output=True, text=True, timeout=300)
+    assert run.returncode == 0, f"`{cmd}` failed ({run.returncode}):\n{run.stdout[-1500:]}\n{run.stderr[-3000:]}"
