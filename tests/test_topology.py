@@ -418,3 +418,27 @@ def test_mode_field_flow_is_the_truncated_fourier_sum():
     Gn = np.stack([(fl.velocity(X[:7] + h * e) - fl.velocity(X[:7] - h * e)) / (2 * h) for e in np.eye(3)], -1)
     assert np.allclose(G, Gn, atol=1e-7 * np.abs(G).max())
     assert np.abs(np.trace(G, axis1=1, axis2=2)).max() < 1e-12 * np.abs(G).max()
+
+
+def test_plots_draw_curves_ribbons_histories_and_density():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    import flowkit
+    from flowkit.topology import curve_geometry, kinetic_helicity, ribbon, ribbon_topology
+    from flowkit.topology.plot import plot_curve, plot_helicity_density, plot_ribbon
+
+    fig = plt.figure()
+    ax = fig.add_subplot(121, projection="3d")
+    g = curve_geometry(torus_knot(2, 3, 1.0, 0.4), 128)
+    lc = plot_curve(ax, g)[0]
+    assert np.allclose(np.sort(lc.get_array()), np.sort(0.5 * (g.curvature + np.roll(g.curvature, -1))))
+    r = ribbon_topology(ribbon(torus_knot(2, 3, 1.0, 0.4), circle(), n=64), error=False)
+    pc, line = plot_ribbon(fig.add_subplot(122, projection="3d"), r)
+    assert len(line.get_data_3d()[0]) == 65 and np.allclose(line.get_data_3d()[0][:64], r.points[:, 0])
+    fig2, ax2 = plt.subplots()
+    h = kinetic_helicity(flowkit.flow("abc"), plane=("z", 0.0), plane_points=12)
+    assert plot_helicity_density(ax2, h)[0].get_array().size == 144
+    plt.close("all")
