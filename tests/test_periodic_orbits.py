@@ -285,3 +285,16 @@ def test_stroboscopic_map_of_the_double_gyre():
     g = flowkit.flow("double-gyre")
     og = find_periodic_orbit(g, o.xi[0], Stroboscopic())
     assert og.converged and abs(og.det - 1.0) < 1e-9 and og.type in ("elliptic", "hyperbolic")
+
+
+def test_box_flow_orbit_returns_modulo_the_lattice():
+    # Roberts flow u = (C cos y, B sin x, psi) with psi = C sin y + B cos x (exact): w = psi along each cell
+    # streamline, so the cell centre (0, pi/2) rises at B + C and meets z = 2 pi after 2 pi/(B + C); around
+    # it the (x, y) motion turns at sqrt(B C) (Hessian of psi), so tr DP = 2 cos(2 pi sqrt(B C)/(B + C)).
+    B, C = 1.0, 0.5
+    f = flowkit.flow("roberts", B=B, C=C)
+    o = find_periodic_orbit(f, (0.1, 1.5), Plane((0, 0, 1), 0.0, "+"))
+    assert o.converged and np.allclose(o.xi[0], [0.0, math.pi / 2], atol=1e-9)
+    assert np.allclose(o.shift, [0.0, 0.0, 2 * math.pi])  # one lattice cell up
+    assert o.period_time == pytest.approx(2 * math.pi / (B + C), rel=1e-10)
+    assert o.trace == pytest.approx(2 * math.cos(2 * math.pi * math.sqrt(B * C) / (B + C)), abs=1e-8)
