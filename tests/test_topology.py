@@ -442,3 +442,26 @@ def test_plots_draw_curves_ribbons_histories_and_density():
     h = kinetic_helicity(flowkit.flow("abc"), plane=("z", 0.0), plane_points=12)
     assert plot_helicity_density(ax2, h)[0].get_array().size == 144
     plt.close("all")
+
+
+def test_loop_explorer_time_slider_redraws_loop_and_histories():
+    """The explorer is a thin layer: what it draws equals material_ribbon called with the same settings."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import flowkit
+    from flowkit.lab import LoopExplorer
+    from flowkit.topology import material_ribbon
+
+    ex = LoopExplorer("stf", params={"rotation": 0.3}, time=0.5, passes=2, max_points=3000)
+    ex.update()
+    ref = material_ribbon(flowkit.flow("stf", rotation=0.3), time=0.5, passes=2, max_points=3000,
+                          max_spacing=0.02, initial_points=128)
+    x, y = ex.wr_line.get_data()
+    np.testing.assert_allclose(x, ref.times)
+    np.testing.assert_allclose(y, ref.writhe, atol=1e-12)
+    assert len(ex.loop_line.get_data_3d()[0]) == ref.npoints[-1] + 1
+    ex.time_slider.value = 1.0
+    ex.flush()
+    assert ex.wr_line.get_data()[0][-1] == pytest.approx(1.0, rel=1e-3)
+    ex.close()

@@ -14,6 +14,7 @@ from flowkit.lab.controls import Debouncer, quick
 from flowkit.lab.dynamo import DynamoExplorer
 from flowkit.lab.ftle import FTLEExplorer
 from flowkit.lab.growth import GrowthExplorer
+from flowkit.lab.loops import LoopExplorer
 from flowkit.lab.sections import SectionExplorer
 
-__all__ = ["SectionExplorer", "FTLEExplorer", "GrowthExplorer", "DynamoExplorer", "Debouncer", "quick"]
+__all__ = ["SectionExplorer", "FTLEExplorer", "GrowthExplorer", "DynamoExplorer", "LoopExplorer", "Debouncer", "quick"]

@@ -87,6 +87,19 @@ from flowkit.lab import DynamoExplorer
 dynamo_view = DynamoExplorer("abc", rm=10.0, resolution=size(16, 8), preview_resolution=8)
 dynamo_view'''),
     md("""
+## A loop carried by the flow: writhe, twist, linking
+
+A closed ribbon (a tilted circle with an in-plane normal) is carried to time *T*:
+left the loop, right its writhe Wr and twist Tw, which trade, and their sum, the
+linking number Lk, which the flow cannot change.
+"""),
+    code('''
+from flowkit.lab import LoopExplorer
+
+loop_view = LoopExplorer("stf", params={"rotation": 0.3}, time=size(2.0, 0.5), passes=size(12, 3),
+                         max_points=size(20_000, 3_000))
+loop_view'''),
+    md("""
 ## Export for the paper
 
 The same as the buttons: a PDF with rasterized points and vector axes, a PNG, and
