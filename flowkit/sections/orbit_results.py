@@ -81,6 +81,12 @@ class PeriodicOrbit(Result):
                    "stalled": "Newton stalled: no step lowers the residual",
                    "iteration budget": "the iteration budget ran out",
                    "equilibrium": "it reached an equilibrium of the flow on the section (u = 0), not a periodic orbit"}.get(run.status[index], run.status[index])
+            if run.status[index] == "no return" and run.outcome is not None:
+                from flowkit.integrate.outcomes import OUTCOME_NAMES
+
+                code = int(run.outcome[index])
+                why += {1: " (the orbit left the domain)", 0: " within max_time",
+                        5: " (step budget)"}.get(code, f" ({OUTCOME_NAMES.get(code, code)})")
             msg = (f"not converged ({why}); residual |P^{k}(xi) - xi| = {res:.3g} after "
                    f"{int(run.iterations[index])} iterations; try another start, a smaller period or more iterations")
             nan = np.full((dim, dim), np.nan)

@@ -39,6 +39,7 @@ class NewtonRun:
     residual: np.ndarray
     iterations: np.ndarray
     status: np.ndarray  # strings, see the module constants
+    outcome: np.ndarray | None = None  # kernel outcome of the start's own return (why there was none)
 
     @property
     def converged(self) -> np.ndarray:
@@ -107,7 +108,7 @@ def newton(rm: ReturnMap, starts, k: int = 1, *, tol: float = 1e-10, max_iter: i
         active[stalled] = False
     done = active & (norm <= tol)
     status[done] = CONVERGED
-    return NewtonRun(xi, norm, iters, status.astype(str))
+    return NewtonRun(xi, norm, iters, status.astype(str), r.outcome)
 
 
 def _residual(img: np.ndarray, xi: np.ndarray) -> np.ndarray:
