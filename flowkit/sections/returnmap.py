@@ -106,7 +106,7 @@ class ReturnMap:
         if isinstance(section, Plane) and not flow.steady:
             raise FlowkitError(
                 f"flow '{flow.name}' is time-periodic, so returns to a plane depend on the time of the start and "
-                "are not a map of the plane; use section=Stroboscopic() for periodic orbits of this flow")
+                "are not a map of the plane; use section=Stroboscopic() (--stroboscopic on the command line)")
         self.flow = flow
         self.section = section
         self.t0 = float(t0)
