@@ -110,8 +110,9 @@ def test_views_render(kind):
     assert text and len(text.splitlines()) <= 40
     rows = obj.headline()
     assert all(len(r) == 3 for r in rows)
-    ds = obj.to_xarray()
-    assert ds.attrs["flowkit_kind"] == kind or "flowkit_kind" in ds.attrs
+    import xarray as xr
+
+    assert isinstance(obj.to_xarray(), xr.Dataset)
 
 
 @pytest.mark.parametrize("kind", sorted(EXAMPLES))

@@ -21,6 +21,7 @@ A subclass overrides ``summary()`` and ``headline()`` to say what matters, and
 from __future__ import annotations
 
 import dataclasses
+import functools
 import html
 from pathlib import Path
 from typing import Any, ClassVar
@@ -53,6 +54,15 @@ class Result:
         if not cls.__dict__.get("kind"):
             cls.kind = cls.__name__
         KINDS[cls.kind] = cls
+        own = cls.__dict__.get("summary")
+        if own is not None and not getattr(own, "_plain", False):
+            # a subclass's summary() always comes out as plain JSON (NaN -> None, numpy -> numbers)
+            @functools.wraps(own)
+            def summary(self, _own=own):
+                return plain(_own(self))
+
+            summary._plain = True
+            cls.summary = summary
 
     # -- what a subclass says about itself ---------------------------------------------
     def summary(self) -> dict:
