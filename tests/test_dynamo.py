@@ -303,8 +303,11 @@ def test_bad_input_gets_errors_naming_the_fix(rest):
     abc = flowkit.flow("abc")
     with pytest.raises(FlowkitError, match="`rm` must be a positive"):
         growth_rate(abc, 0.0, 16)
+    # a ball flow goes to the sphere solver; the box operator itself refuses it (no shared code path)
     with pytest.raises(FlowkitError, match="periodic box.*domain 'ball'"):
-        growth_rate(flowkit.flow("stf"), 10.0, 16)
+        InductionOperator(flowkit.flow("stf"), 10.0, 16)
+    with pytest.raises(FlowkitError, match="no vertical wavenumber"):
+        growth_rate(flowkit.flow("stf"), 10.0, 16, kz=1.0)
     with pytest.raises(FlowkitError, match="`resolution` must be at least 8"):
         growth_rate(abc, 10.0, 4)
     fine = flowkit.custom_flow(["sin(5*z)", "sin(5*x)", "sin(5*y)"], domain="periodic", name="fine")

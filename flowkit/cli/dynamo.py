@@ -1,4 +1,8 @@
-"""``flowkit dynamo FLOW``: growth rate of the leading magnetic mode at finite Rm (periodic box).
+"""``flowkit dynamo FLOW``: growth rate of the leading magnetic mode at finite Rm (periodic box or ball).
+
+A ball flow (``stf``, ``hill``, ``t1s1``, ``t2s2``, Lamb flows) goes to the
+insulating-sphere solver: ``--resolution L,N`` (harmonic degree, radial nodes) and
+``--m`` for one azimuthal order of an axisymmetric flow; the JSON keys are the box's.
 
 One Rm (``--rm``), a curve (``--rm-list``), or the onset (``--critical``, which
 scans ``--rm-list`` upward for the first sign change and refines it). For a flow
@@ -13,7 +17,8 @@ from flowkit.errors import FlowkitError
 
 
 def add(sub):
-    p = sub.add_parser("dynamo", help="diffusive dynamo growth rate vs magnetic Reynolds number (2*pi box)")
+    p = sub.add_parser("dynamo", help="diffusive dynamo growth rate vs magnetic Reynolds number (2*pi box or "
+                                      "insulating ball)")
     add_flow_args(p)
     p.add_argument("--rm", type=float, help="magnetic Reynolds number Rm = 1/eta")
     p.add_argument("--rm-list", metavar="R1,R2,...", help="comma-separated Rm values for a sweep")
@@ -23,13 +28,18 @@ def add(sub):
                    help="z-independent flows: solve for fields exp(i K z), any real K >= 0 (N^2 grid)")
     p.add_argument("--kz-list", metavar="K1,K2,...",
                    help="z-independent flows: growth rate at each vertical wavenumber, at --rm")
-    p.add_argument("--resolution", type=int, default=32, help="grid points per side N (even, default 32)")
-    p.add_argument("--method", choices=["eigen", "march"], default="eigen",
-                   help="eigen: Arnoldi on the operator (Floquet map if time-periodic); march: time stepping + fit")
+    p.add_argument("--resolution", default=None,
+                   help="box: grid points per side N (even, default 32); ball: L,N (default 16,16); or 'auto'")
+    p.add_argument("--method", choices=["eigen", "march", "propagator"], default="eigen",
+                   help="eigen: Arnoldi/shift-invert on the operator (Floquet map if time-periodic); march: time "
+                        "stepping + fit; propagator (ball): Arnoldi on the time-stepped propagator")
+    p.add_argument("--m", default=None, help="ball, axisymmetric flows: one azimuthal order, or 'all'")
     p.add_argument("--check-resolution", default="auto", metavar="M",
-                   help="second resolution for the convergence estimate ('auto' = 2N/3, 'none' to skip)")
-    p.add_argument("--tolerance", type=float, default=1e-3,
-                   help="growth rates at N and M must agree within this to count as converged (default 1e-3)")
+                   help="second resolution for the convergence estimate ('auto' = 2N/3 in the box, 3/4 (L,N) "
+                        "in the ball; 'none' to skip)")
+    p.add_argument("--tolerance", type=float, default=None,
+                   help="growth rates at the two resolutions must agree within this to count as converged "
+                        "(default 1e-3 box, 1e-2 ball)")
     p.add_argument("--save", metavar="PATH", help="save the result (.npz; single Rm keeps the mode on the grid)")
     p.add_argument("--no-progress", action="store_true", help="hide the progress bar of sweeps")
     return p
@@ -44,31 +54,54 @@ def _number_list(text: str | None, option: str, example: str) -> list[float] | N
         raise FlowkitError(f"{option} expects comma-separated numbers, e.g. {example}; got {text!r}") from None
 
 
+def _resolution(text, option: str):
+    """'auto', an integer (box) or 'L,N' (ball)."""
+    if text is None or text == "auto":
+        return text
+    try:
+        parts = [int(v) for v in str(text).split(",")]
+    except ValueError:
+        raise FlowkitError(f"{option} expects an integer (box), L,N (ball) or 'auto'; got {text!r}") from None
+    if len(parts) not in (1, 2):
+        raise FlowkitError(f"{option} expects an integer (box) or L,N (ball); got {text!r}")
+    return parts[0] if len(parts) == 1 else tuple(parts)
+
+
 def _check(text: str):
     if text in ("auto", None):
         return "auto"
     if text.lower() == "none":
         return None
-    try:
-        return int(text)
-    except ValueError:
-        raise FlowkitError(f"--check-resolution expects an even integer, 'auto' or 'none'; got {text!r}") from None
+    return _resolution(text, "--check-resolution")
 
 
 def run(args) -> dict:
-    from flowkit.dynamo import critical_rm, growth_rate, sweep_kz, sweep_rm
+    from flowkit.dynamo import critical_rm, growth_rate, sweep_kz, sweep_rm  # also registers t1s1, t2s2
 
     flow = flow_from_args(args)
     rms = _number_list(args.rm_list, "--rm-list", "5,10,20")
     kzs = _number_list(args.kz_list, "--kz-list", "0.25,0.5,1")
     check = _check(args.check_resolution)
-    common = {"resolution": args.resolution, "method": args.method}
+    resolution = _resolution(args.resolution, "--resolution")
+    common = {"resolution": resolution, "method": args.method}
+    if flow.domain == "ball":
+        if args.kz is not None or kzs is not None:
+            raise FlowkitError("--kz and --kz-list are for z-independent periodic flows; a ball flow has none")
+        if resolution is None:
+            common["resolution"] = (16, 16)
+        if args.m is not None:
+            common["m"] = args.m if args.m == "all" else int(args.m)
+    elif args.m is not None:
+        raise FlowkitError("--m (azimuthal order) is for ball flows")
+    if args.method == "propagator" and flow.domain != "ball":
+        raise FlowkitError("--method propagator is for ball flows; use eigen or march in the box")
+    tol = {} if args.tolerance is None else {"tolerance": args.tolerance}
     if kzs is not None:
         if args.kz is not None or rms is not None or args.critical:
             raise FlowkitError("--kz-list scans wavenumbers at one --rm; drop --kz, --rm-list and --critical")
         if args.rm is None:
             raise FlowkitError("--kz-list needs the magnetic Reynolds number: add --rm R")
-        res = sweep_kz(flow, args.rm, kzs, check_resolution=check, tolerance=args.tolerance,
+        res = sweep_kz(flow, args.rm, kzs, check_resolution=check, **tol,
                        progress=not args.no_progress, **common)
         out = res.summary()
         out["fastest"] = dict(zip(("kz", "growth_rate"), res.fastest)) if len(res.kz) else None
@@ -82,11 +115,11 @@ def run(args) -> dict:
         res = critical_rm(flow, check_resolution=check, progress=not args.no_progress, **common, **kw)
         out = res.summary()
     elif rms is not None:
-        res = sweep_rm(flow, rms, check_resolution=check, tolerance=args.tolerance,
+        res = sweep_rm(flow, rms, check_resolution=check, **tol,
                        progress=not args.no_progress, **common)
         out = res.summary()
     elif args.rm is not None:
-        res = growth_rate(flow, args.rm, check_resolution=check, tolerance=args.tolerance,
+        res = growth_rate(flow, args.rm, check_resolution=check, **tol,
                           keep_mode=bool(args.save), **common)
         out = res.summary()
     else:
@@ -127,4 +160,4 @@ def human(result: dict) -> str:
             f"Rm = {result['rm']:g}{kz}, N = {result['resolution']} ({result['method']}); "
             f"error estimate {_num(result['error_estimate'], '.2g')} "
             f"vs N = {result['check'].get('resolution')}, converged: {result['converged']}; "
-            f"{result['seconds']:.1f} s")
+            f"{result['seconds']:.1f} s" + (f"\n{result['reason']}" if result.get("reason") else ""))

@@ -1,7 +1,10 @@
-"""Kinematic dynamo growth rates at finite magnetic Reynolds number (periodic box).
+"""Kinematic dynamo growth rates at finite magnetic Reynolds number (periodic box or insulating ball).
 
-A pseudo-spectral solver of ``dB/dt = curl(u x B) + Rm^-1 lap B`` in the 2*pi
-box for any steady or time-periodic periodic flow of the library:
+Every function below dispatches on ``flow.domain``: a ball flow goes to
+:mod:`flowkit.dynamo.sphere` (toroidal-poloidal spectral solver with an insulating
+exterior, ``resolution=(L, N)``, time in diffusion times), a periodic one to the
+pseudo-spectral solver of ``dB/dt = curl(u x B) + Rm^-1 lap B`` in the 2*pi box
+for any steady or time-periodic periodic flow of the library:
 
 - :func:`growth_rate`: leading growth rate and frequency, by Arnoldi on the
   operator (``method="eigen"``; Floquet multiplier for time-periodic flows) or by
@@ -23,6 +26,7 @@ from flowkit.dynamo.curves import critical_rm, sweep_kz, sweep_rm
 from flowkit.dynamo.growth import growth_rate
 from flowkit.dynamo.induction import InductionOperator
 from flowkit.dynamo.results import CriticalRm, GrowthResult, KzScan, RmSweep
+from flowkit.dynamo.sphere import benchmark_flow
 
 __all__ = ["growth_rate", "sweep_rm", "sweep_kz", "critical_rm", "InductionOperator", "GrowthResult", "RmSweep",
-           "KzScan", "CriticalRm"]
+           "KzScan", "CriticalRm", "benchmark_flow"]

@@ -10,6 +10,16 @@ from scipy.optimize import brentq
 
 from flowkit.dynamo.growth import default_check_resolution, growth_rate
 from flowkit.dynamo.induction import check_periodic, check_rm
+
+
+def _check_flow(flow) -> None:
+    """Periodic flows go to the box solver, ball flows to the sphere solver; anything else is refused."""
+    if getattr(flow, "domain", None) in ("ball", "unbounded"):
+        from flowkit.dynamo.sphere.flowcheck import check_ball_flow
+
+        check_ball_flow(flow)
+    else:
+        check_periodic(flow)
 from flowkit.dynamo.results import CriticalRm, KzScan, RmSweep, stamp
 from flowkit.dynamo.spectral import check_kz
 from flowkit.errors import FlowkitError
@@ -38,14 +48,14 @@ def _progress(iterable, enabled: bool, desc: str):
     return tqdm(iterable, desc=desc, leave=False)
 
 
-def sweep_rm(flow, rm_list, resolution: int = 32, method: str = "eigen", progress: bool = True,
+def sweep_rm(flow, rm_list, resolution=None, method: str = "eigen", progress: bool = True,
              save_to=None, **kwargs) -> RmSweep:
     """Growth rate of the leading mode at each ``Rm`` of ``rm_list``.
 
     Parameters
     ----------
     flow : Flow
-        Periodic flow.
+        Periodic flow (box solver) or ball flow (sphere solver; ``resolution=(L, N)``).
     rm_list : sequence of float
         Magnetic Reynolds numbers (any order; evaluated as given).
     resolution, method, **kwargs
@@ -62,7 +72,7 @@ def sweep_rm(flow, rm_list, resolution: int = 32, method: str = "eigen", progres
         Ctrl-C stops the sweep and returns the finished points
         (``provenance["interrupted"]`` is then true).
     """
-    check_periodic(flow)
+    _check_flow(flow)
     rms = _rm_values(rm_list)
 
     def collect(done, settings, seconds):
@@ -137,7 +147,7 @@ def _run_curve(flow, values, compute, collect, settings, kwargs, progress, save_
     return curve
 
 
-def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution: int = 32,
+def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution=None,
                 method: str = "eigen", xtol: float = 1e-3, check_resolution="auto", progress: bool = True,
                 **settings) -> CriticalRm:
     """Lowest ``Rm`` at which the leading growth rate crosses zero from below.
@@ -153,7 +163,10 @@ def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution: i
         root-finding tolerance plus the shift of the root implied by the growth
         rate at the check resolution (``2N/3`` by default).
     """
-    check_periodic(flow)
+    _check_flow(flow)
+    ball = flow.domain == "ball"
+    if resolution is None:
+        resolution = (16, 16) if ball else 32
     rms = sorted(_rm_values(rm_list))
     t0 = time.perf_counter()
     evaluations: dict[float, float] = {}
@@ -190,7 +203,16 @@ def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution: i
     uncertainty = xtol * root
     check = {}
     if check_resolution is not None:
-        other = default_check_resolution(resolution) if check_resolution == "auto" else int(check_resolution)
+        if ball:
+            from flowkit.dynamo.sphere.flowcheck import probe_flow
+            from flowkit.dynamo.sphere.growth import default_check
+            from flowkit.dynamo.sphere.operator import check_ball_resolution
+
+            res = check_ball_resolution(resolution)
+            other = list(default_check(res, probe_flow(flow)) if check_resolution == "auto"
+                         else check_ball_resolution(check_resolution, "check_resolution"))
+        else:
+            other = default_check_resolution(resolution) if check_resolution == "auto" else int(check_resolution)
         r2 = growth_rate(flow, root, other, method, check_resolution=None, keep_mode=False, **settings)
         check = {"resolution": other, "growth_rate_at_root": r2.growth_rate}
         uncertainty += abs(r2.growth_rate - evaluations[root]) / abs(slope)

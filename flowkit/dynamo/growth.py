@@ -190,19 +190,27 @@ def default_check_resolution(n: int) -> int:
     return m
 
 
-def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", check_resolution="auto",
-                tolerance: float = 1e-3, keep_mode: bool = True, workers: int | None = None,
-                kz: float | None = None, **settings) -> GrowthResult:
+def growth_rate(flow, rm: float, resolution=None, method: str = "eigen", check_resolution="auto",
+                tolerance: float | None = None, keep_mode: bool = True, workers: int | None = None,
+                kz: float | None = None, m=None, **settings) -> GrowthResult:
     """Growth rate and frequency of the leading magnetic mode of ``flow`` at ``rm``.
+
+    Dispatches on the flow's domain: a periodic flow goes to the pseudo-spectral box
+    solver documented here; a flow with ``domain="ball"`` to the insulating-sphere
+    solver :func:`flowkit.dynamo.sphere.growth.ball_growth_rate` (``resolution=(L, N)``,
+    default ``(16, 16)``, ``tolerance`` default ``1e-2``, ``m=`` the orders of an
+    axisymmetric flow). The two never share code that assumes the other's boundary.
 
     Parameters
     ----------
     flow : Flow
-        Steady or time-periodic flow on the 2*pi-periodic box.
+        Steady or time-periodic flow on the 2*pi-periodic box (or a ball flow, see above).
     rm : float
         Magnetic Reynolds number ``Rm = 1/eta`` (the flow's velocity as defined).
-    resolution : int
-        Grid points per side ``N`` (even, >= 8); the 2/3 rule keeps ``|k_i| <= (N-1)//3``.
+    resolution : int or "auto"
+        Grid points per side ``N`` (even, >= 8; default 32); the 2/3 rule keeps
+        ``|k_i| <= (N-1)//3``. ``"auto"`` tries 12, 16, 24, 32, 48 until two successive
+        grids agree within ``tolerance`` (the last pair is the reported value and its check).
     method : {"eigen", "march"}
         Arnoldi on the operator (Floquet propagator if time-periodic), or time
         stepping with a fitted growth rate.
@@ -211,7 +219,8 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
         (so the pair is ``M, 3M/2`` and the estimate is conservative for ``N``);
         pass e.g. ``3 * N // 2`` to check upward, ``None`` to skip.
     tolerance : float
-        ``converged`` requires the two resolutions to agree within this (absolute).
+        ``converged`` requires the two resolutions to agree within this (absolute;
+        default ``1e-3`` in the box).
     keep_mode : bool
         Keep the leading mode on the grid (``result.mode``).
     workers : int, optional
@@ -227,8 +236,22 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
     -------
     GrowthResult
     """
+    if getattr(flow, "domain", None) in ("ball", "unbounded"):
+        from flowkit.dynamo.sphere.growth import ball_growth_rate
+
+        if kz is not None:
+            raise FlowkitError("`kz` is for z-independent periodic flows; a ball flow has no vertical wavenumber")
+        return ball_growth_rate(flow, rm, (16, 16) if resolution is None else resolution, method,
+                                check_resolution, 1e-2 if tolerance is None else tolerance, keep_mode, m,
+                                **settings)
     t0 = time.perf_counter()
     check_periodic(flow)
+    if m is not None:
+        raise FlowkitError("`m` (azimuthal order) is for ball flows; the box solver has no such option")
+    tolerance = 1e-3 if tolerance is None else tolerance
+    resolution = 32 if resolution is None else resolution
+    if isinstance(resolution, str) and resolution == "auto":
+        return _auto_box(flow, rm, method, tolerance, keep_mode, workers, kz, settings)
     rm = check_rm(rm)
     resolution = check_resolution_value(resolution, "resolution")
     if method not in METHODS:
@@ -250,6 +273,7 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
     check = {}
     converged = None
     error = float("nan")
+    reason = ""
     other = default_check_resolution(resolution) if check_resolution == "auto" else check_resolution
     if other is not None:
         other = check_resolution_value(other, "check_resolution")
@@ -260,6 +284,16 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
                  "converged": raw2["converged"]}
         error = abs(raw["growth_rate"] - raw2["growth_rate"])
         converged = bool(error <= tolerance and raw["converged"] and raw2["converged"])
+        nxt = 3 * max(resolution, other) // 2
+        nxt += nxt % 2
+        if not (raw["converged"] and raw2["converged"]):
+            reason = f"the solver did not converge ({raw.get('message') or raw2.get('message')}); " \
+                     f"change the method settings or try resolution={nxt}"
+        elif error > tolerance:
+            reason = (f"growth rate changed by {error:.3g} between N = {other} and N = {resolution} "
+                      f"(tolerance {tolerance:g}); try resolution={nxt}")
+        else:
+            reason = f"agrees within {tolerance:g} with N = {other}"
     mode = _mode_on_grid(op, coeffs) if (keep_mode and coeffs is not None) else None
     return GrowthResult(
         growth_rate=raw["growth_rate"], frequency=raw["frequency"], rm=rm, resolution=resolution,
@@ -268,13 +302,46 @@ def growth_rate(flow, rm: float, resolution: int = 32, method: str = "eigen", ch
         provenance=stamp(flow, {"method": method, "resolution": resolution, "rm": rm,
                                 "check_resolution": other, "tolerance": tolerance, "kz": kz,
                                 "dealiasing": "2/3 rule", **opts}),
-        seconds=time.perf_counter() - t0,
+        seconds=time.perf_counter() - t0, reason=reason,
     )
 
 
+#: The ``resolution="auto"`` ladder of the box.
+AUTO_BOX = (12, 16, 24, 32, 48)
+
+
+def _auto_box(flow, rm, method, tolerance, keep_mode, workers, kz, settings) -> GrowthResult:
+    """Climb :data:`AUTO_BOX` until two successive grids agree within ``tolerance``."""
+    previous = None
+    for n in AUTO_BOX:
+        res = growth_rate(flow, rm, n, method, check_resolution=previous, tolerance=tolerance,
+                          keep_mode=keep_mode, workers=workers, kz=kz, **settings)
+        if previous is not None and res.converged:
+            break
+        previous = n
+    res.diagnostics["auto_ladder"] = list(AUTO_BOX[: AUTO_BOX.index(res.resolution) + 1])
+    if not res.converged:
+        res.reason += " (the 'auto' ladder reached its cap N = 48)"
+    return res
+
+
+#: Bytes per grid point of one box solve: 3 components x (Arnoldi basis + work arrays) x 8 bytes.
+_BYTES_PER_POINT = 3 * 8 * 90
+
+
 def check_resolution_value(n, name: str) -> int:
-    """:func:`~flowkit.dynamo.spectral.check_resolution` with the argument's own name in errors."""
+    """:func:`~flowkit.dynamo.spectral.check_resolution` with the argument's own name in errors,
+    and a memory check (:func:`flowkit.validation.memory`) naming the largest grid that fits."""
+    from flowkit.validation import available_memory, memory
+
     try:
-        return _check_n(n)
+        n = _check_n(n)
     except FlowkitError as exc:
         raise FlowkitError(str(exc).replace("`resolution`", f"`{name}`", 1)) from None
+    try:
+        memory(float(n) ** 3 * _BYTES_PER_POINT, name, value=n)
+    except FlowkitError as exc:
+        fit = int((available_memory() / _BYTES_PER_POINT) ** (1 / 3))
+        fit -= fit % 2
+        raise FlowkitError(f"{exc}; the largest `{name}` that fits is about {fit}") from None
+    return n

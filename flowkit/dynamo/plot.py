@@ -37,7 +37,7 @@ def mode_slice(result, axis: str = "z", position: float = 0.0, part: str = "real
 
 def plot_mode_slice(ax, result, axis: str = "z", position: float = 0.0, part: str = "real",
                     cmap: str = "magma", density: float = 1.2, line_color: str = "white",
-                    colorbar: bool = True, **imshow_kw) -> dict:
+                    colorbar: bool = True, plane: str | None = None, resolution: int = 64, **imshow_kw) -> dict:
     """Plot ``|B|`` of the leading mode on a plane, with in-plane field lines.
 
     Parameters
@@ -52,11 +52,19 @@ def plot_mode_slice(ax, result, axis: str = "z", position: float = 0.0, part: st
     cmap, density, line_color, colorbar, **imshow_kw
         Styling: colour map of ``|B|``, streamline density and colour.
 
+    plane : {"meridional", "equatorial"}, optional
+        Ball results: the ``y = 0`` meridional disk or the ``z = 0`` equatorial disk
+        (default: meridional), sampled
+        on ``resolution`` x ``resolution`` points.
+
     Returns
     -------
     dict
         ``{"image": AxesImage, "lines": StreamplotSet, "colorbar": Colorbar or None}``.
     """
+    if getattr(result, "domain", "box") == "ball":
+        return _plot_ball_slice(ax, result, plane or "meridional", part, cmap, density, line_color, colorbar,
+                                resolution, **imshow_kw)
     h, v, bh, bv, mag, (lh, lv) = mode_slice(result, axis, position, part)
     image = ax.imshow(mag, origin="lower", extent=(0, 2 * np.pi, 0, 2 * np.pi), cmap=cmap,
                       interpolation="bilinear", **imshow_kw)
@@ -65,6 +73,25 @@ def plot_mode_slice(ax, result, axis: str = "z", position: float = 0.0, part: st
     ax.set(xlim=(0, 2 * np.pi), ylim=(0, 2 * np.pi), xlabel=lh, ylabel=lv,
            title=f"{part} part, {axis} = {position:.2f}, Rm = {result.rm:g}"
                  + ("" if getattr(result, "kz", None) is None else f", kz = {result.kz:g}"))
+    ax.set_aspect("equal")
+    cbar = ax.figure.colorbar(image, ax=ax, label="|B|") if colorbar else None
+    return {"image": image, "lines": lines, "colorbar": cbar}
+
+
+def _plot_ball_slice(ax, result, plane, part, cmap, density, line_color, colorbar, resolution, **imshow_kw):
+    """|B| of a ball mode on a disk with in-plane field lines and the sphere's outline."""
+    from flowkit.dynamo.sphere.mode import ball_slice
+
+    h, v, bh, bv, mag, (lh, lv) = ball_slice(result, plane, part, resolution)
+    image = ax.imshow(mag, origin="lower", extent=(-1, 1, -1, 1), cmap=cmap, interpolation="bilinear",
+                      **imshow_kw)
+    lines = ax.streamplot(h, v, np.nan_to_num(bh), np.nan_to_num(bv), color=line_color, density=density,
+                          linewidth=0.7, arrowsize=0.7)
+    t = np.linspace(0, 2 * np.pi, 200)
+    ax.plot(np.cos(t), np.sin(t), color="0.3", lw=0.8)
+    m = result.diagnostics.get("m")
+    ax.set(xlim=(-1.02, 1.02), ylim=(-1.02, 1.02), xlabel=lh, ylabel=lv,
+           title=f"{plane} plane, {part} part, Rm = {result.rm:g}" + ("" if m is None else f", m = {m}"))
     ax.set_aspect("equal")
     cbar = ax.figure.colorbar(image, ax=ax, label="|B|") if colorbar else None
     return {"image": image, "lines": lines, "colorbar": cbar}

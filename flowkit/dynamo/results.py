@@ -1,8 +1,10 @@
 """Result dataclasses of the spectral dynamo solver: provenance, save/load, xarray.
 
-Files are ``.npz`` archives holding plain arrays plus one JSON string of metadata,
-so they load with ``allow_pickle=False``; ``to_xarray()`` gives a Dataset that
-``to_netcdf`` writes (metadata as a JSON attribute).
+Every class follows the shared result protocol (:class:`flowkit.results.Result`):
+``save`` to ``.npz``/``.nc``/``.json`` by suffix (``.npz`` when none is given),
+``flowkit.load`` or ``Class.load`` to reopen, ``summary()`` for ``--json``.
+``to_xarray()`` keeps the solver's own layout (the box mode as ``B(part,
+component, x, y, z)``, metadata as a JSON attribute).
 """
 
 from __future__ import annotations
@@ -15,6 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from flowkit._version import __version__
+from flowkit.results import Result
 
 
 def stamp(flow, settings: dict) -> dict:
@@ -26,23 +29,20 @@ def stamp(flow, settings: dict) -> dict:
     return prov
 
 
-def _write(path, arrays: dict, meta: dict) -> Path:
-    path = Path(path)
-    if path.suffix != ".npz":
-        path = path.with_suffix(".npz")
-    np.savez_compressed(path, meta=np.array(json.dumps(meta)), **arrays)
-    return path
+class _DynamoResult(Result):
+    """Shared behaviour: a path without a suffix is saved as ``.npz`` (the solver's historic default)."""
 
-
-def _read(path) -> tuple[dict, dict]:
-    with np.load(Path(path), allow_pickle=False) as data:
-        meta = json.loads(str(data["meta"]))
-        arrays = {k: data[k] for k in data.files if k != "meta"}
-    return meta, arrays
+    def save(self, path) -> Path:
+        """Write ``path`` (``.npz``, ``.nc`` or ``.json`` by suffix; ``.npz`` if none). Reload with
+        :func:`flowkit.load` or ``type(self).load(path)``."""
+        path = Path(path)
+        if path.suffix == "":
+            path = path.with_suffix(".npz")
+        return super().save(path)
 
 
 @dataclass
-class GrowthResult:
+class GrowthResult(_DynamoResult):
     """Growth rate and frequency of the leading magnetic mode of one flow at one ``Rm``.
 
     Attributes
@@ -52,8 +52,8 @@ class GrowthResult:
         time-periodic flows, frequency then defined modulo ``2 pi / period``).
     rm : float
         Magnetic Reynolds number ``1/eta``.
-    resolution : int
-        Grid points per side of the reported value.
+    resolution : int or list
+        Box: grid points per side. Ball: ``[L, N]`` (harmonic degree, radial nodes).
     method : str
         ``"eigen"`` (Arnoldi) or ``"march"`` (time stepping and fit).
     kz : float or None
@@ -69,8 +69,16 @@ class GrowthResult:
     diagnostics : dict
         Solver details (matvecs, residual, fit window, spectral tail of the mode, ...).
     mode : ndarray or None
-        The leading mode on the grid, shape ``(2, 3, N, N, N)``: real and imaginary
-        parts (the field is ``Re[(mode[0] + i mode[1]) exp(lambda t)]``).
+        Box: the leading mode on the grid, shape ``(2, 3, N, N, N)``: real and imaginary
+        parts (the field is ``Re[(mode[0] + i mode[1]) exp(lambda t)]``). Ball: the
+        toroidal and poloidal scalars at the radial nodes, shape ``(2, 2, M, L+1, N)``
+        (part, T/S, order ``orders[i]``, degree, node); see :mod:`flowkit.dynamo.sphere.mode`.
+    domain : str
+        ``"box"`` (periodic) or ``"ball"`` (insulating sphere).
+    orders : list or None
+        Ball: the azimuthal orders ``m`` of the mode's rows.
+    reason : str
+        Why ``converged`` is what it is; when not converged, the resolution to try next.
     provenance : dict
     seconds : float
     """
@@ -78,7 +86,7 @@ class GrowthResult:
     growth_rate: float
     frequency: float
     rm: float
-    resolution: int
+    resolution: int | list
     method: str
     kz: float | None = None
     converged: bool | None = None
@@ -89,22 +97,28 @@ class GrowthResult:
     mode: np.ndarray | None = field(default=None, repr=False)
     provenance: dict = field(default_factory=dict, repr=False)
     seconds: float = 0.0
+    domain: str = "box"
+    orders: list | None = None
+    reason: str = ""
+
+    _ARRAYS = ("mode",)
 
     def summary(self) -> dict:
         """JSON-ready dict of everything but the mode."""
         out = {f.name: getattr(self, f.name) for f in fields(self) if f.name != "mode"}
         return json.loads(json.dumps(out, default=_json_default))
 
-    def save(self, path) -> Path:
-        """Write ``path`` (``.npz``; no pickle needed to load)."""
-        arrays = {} if self.mode is None else {"mode": self.mode}
-        return _write(path, arrays, {"type": "GrowthResult", **self.summary()})
+    def headline(self):
+        return [("growth rate", self.growth_rate, self.error_estimate), ("frequency", self.frequency, None),
+                ("Rm", self.rm, None), ("resolution", self.resolution, None), ("method", self.method, None),
+                ("converged", self.converged, None), ("domain", self.domain, None)]
 
-    @classmethod
-    def load(cls, path) -> "GrowthResult":
-        meta, arrays = _read(path)
-        meta.pop("type", None)
-        return cls(**meta, mode=arrays.get("mode"))
+    def _dims(self) -> dict:
+        if self.mode is None:
+            return {}
+        if self.domain == "ball":
+            return {"mode": ("part", "scalar", "order", "degree", "node")}
+        return {"mode": ("part", "component", "x", "y", "z")}
 
     def to_xarray(self):
         """``xarray.Dataset`` with the mode as ``B(part, component, x, y, z)`` and scalars as attributes."""
@@ -115,7 +129,11 @@ class GrowthResult:
         attrs["metadata_json"] = json.dumps(self.summary())
         data = {}
         coords = {}
-        if self.mode is not None:
+        if self.mode is not None and self.domain == "ball":
+            coords = {"part": ["real", "imag"], "scalar": ["T", "S"], "order": list(self.orders or []),
+                      "degree": np.arange(self.mode.shape[3])}
+            data["mode"] = (("part", "scalar", "order", "degree", "node"), self.mode)
+        elif self.mode is not None:
             n = self.mode.shape[-1]
             x = 2 * np.pi * np.arange(n) / n
             coords = {"part": ["real", "imag"], "component": ["x", "y", "z"], "x": x, "y": x, "z": x}
@@ -123,27 +141,25 @@ class GrowthResult:
         return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
-class _GrowthCurve:
-    """Save/load/xarray shared by growth-rate curves; ``axis`` names the varied quantity."""
+class _GrowthCurve(_DynamoResult):
+    """Shared by growth-rate curves; ``axis`` names the varied quantity."""
 
     axis = "rm"
 
     def summary(self) -> dict:
         return json.loads(json.dumps(asdict(self), default=_json_default))
 
-    def save(self, path) -> Path:
-        """Write ``path`` (``.npz``; no pickle needed to load)."""
-        names = (self.axis, "growth_rate", "frequency", "error_estimate")
-        arrays = {k: np.asarray(getattr(self, k), dtype=float) for k in names}
-        meta = {f.name: getattr(self, f.name) for f in fields(self) if f.name not in names}
-        return _write(path, arrays, json.loads(json.dumps({"type": type(self).__name__, **meta},
-                                                          default=_json_default)))
+    def headline(self):
+        g = np.asarray(self.growth_rate, dtype=float)
+        i = int(np.nanargmax(g)) if g.size and np.isfinite(g).any() else 0
+        x = np.asarray(getattr(self, self.axis), dtype=float)
+        return [("points", int(g.size), None),
+                (f"fastest growth at {self.axis}", float(x[i]) if g.size else float("nan"), None),
+                ("largest growth rate", float(g[i]) if g.size else float("nan"),
+                 float(np.asarray(self.error_estimate, dtype=float)[i]) if g.size else None)]
 
-    @classmethod
-    def load(cls, path):
-        meta, arrays = _read(path)
-        meta.pop("type", None)
-        return cls(**arrays, **meta)
+    def _dims(self) -> dict:
+        return {k: (self.axis,) for k in self._ARRAYS}
 
     def to_xarray(self):
         import xarray as xr
@@ -172,6 +188,8 @@ class RmSweep(_GrowthCurve):
     provenance: dict = field(default_factory=dict, repr=False)
     seconds: float = 0.0
 
+    _ARRAYS = ("rm", "growth_rate", "frequency", "error_estimate")
+
 
 @dataclass
 class KzScan(_GrowthCurve):
@@ -191,6 +209,7 @@ class KzScan(_GrowthCurve):
     seconds: float = 0.0
 
     axis = "kz"
+    _ARRAYS = ("kz", "growth_rate", "frequency", "error_estimate")
 
     @property
     def fastest(self) -> tuple[float, float]:
@@ -200,7 +219,7 @@ class KzScan(_GrowthCurve):
 
 
 @dataclass
-class CriticalRm:
+class CriticalRm(_DynamoResult):
     """The ``Rm`` where the leading growth rate crosses zero from below.
 
     ``uncertainty`` adds the root-finding tolerance and the resolution error of the
@@ -213,7 +232,7 @@ class CriticalRm:
     slope: float
     frequency: float
     evaluations: list = field(default_factory=list)
-    resolution: int = 0
+    resolution: int | list = 0
     method: str = "eigen"
     provenance: dict = field(default_factory=dict, repr=False)
     seconds: float = 0.0
@@ -221,14 +240,10 @@ class CriticalRm:
     def summary(self) -> dict:
         return json.loads(json.dumps(asdict(self), default=_json_default))
 
-    def save(self, path) -> Path:
-        return _write(path, {}, {"type": "CriticalRm", **self.summary()})
-
-    @classmethod
-    def load(cls, path) -> "CriticalRm":
-        meta, _ = _read(path)
-        meta.pop("type", None)
-        return cls(**meta)
+    def headline(self):
+        return [("critical Rm", self.rm_critical, self.uncertainty), ("frequency at onset", self.frequency, None),
+                ("slope d sigma / d Rm", self.slope, None), ("resolution", self.resolution, None),
+                ("method", self.method, None)]
 
 
 def _json_default(obj):

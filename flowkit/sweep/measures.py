@@ -88,16 +88,22 @@ def line_stretching(flow: Flow, seed: int, time: float = 10.0, max_points: int =
             "points": int(res.npoints[-1])}
 
 
-def dynamo_growth(flow: Flow, seed: int, rm: float = 10.0, resolution: int = 16, method: str = "eigen",
-                  kz: float | None = None) -> dict:
-    """Growth rate of the fastest magnetic mode at magnetic Reynolds number ``rm`` (periodic flows).
+def dynamo_growth(flow: Flow, seed: int, rm: float = 10.0, resolution=None, method: str = "eigen",
+                  kz: float | None = None, m=None) -> dict:
+    """Growth rate of the fastest magnetic mode at magnetic Reynolds number ``rm``.
 
-    ``kz``: one vertical wavenumber (flows independent of ``z``), else the full box.
-    stderr: the resolution-convergence estimate (difference to the check resolution).
+    Periodic flows: the box solver (``resolution`` N, default 16; ``kz``: one vertical
+    wavenumber of a ``z``-independent flow). Ball flows: the insulating-sphere solver
+    (``resolution`` ``(L, N)`` or ``"L,N"``, default ``(12, 12)``; ``m``: one order of an
+    axisymmetric flow). stderr: the resolution-convergence estimate.
     """
     from flowkit.dynamo import growth_rate
 
-    res = growth_rate(flow, rm, resolution=resolution, method=method, keep_mode=False, workers=1, kz=kz)
+    ball = flow.domain == "ball"
+    if resolution is None:
+        resolution = (12, 12) if ball else 16
+    extra = {"m": m} if ball else {"kz": kz, "workers": 1}
+    res = growth_rate(flow, rm, resolution=resolution, method=method, keep_mode=False, **extra)
     err = res.error_estimate
     return {"value": float(res.growth_rate), "stderr": None if err != err else float(err),
             "frequency": float(res.frequency), "converged": res.converged}

@@ -1,0 +1,167 @@
+"""Kinematic dynamo in the unit ball with an insulating exterior (flowkit.dynamo.sphere).
+
+Each check names its outside reference.
+"""
+
+import numpy as np
+import pytest
+from scipy.optimize import brentq
+from scipy.special import spherical_jn
+
+import flowkit
+from flowkit.dynamo import GrowthResult, critical_rm, growth_rate, sweep_rm
+from flowkit.dynamo.sphere.basis import RadialBasis
+from flowkit.dynamo.sphere.flows import benchmark_flow
+from flowkit.dynamo.sphere.harmonics import normalized_legendre
+from flowkit.dynamo.sphere.operator import BallOperator
+from flowkit.dynamo.sphere.sparse import sparse_shift_invert
+from flowkit.errors import FlowkitError
+
+
+def first_zero(l: int) -> float:
+    """First positive zero of the spherical Bessel function j_l (scipy), bracketed on a fine scan."""
+    x = np.linspace(0.5, 12, 2000)
+    v = spherical_jn(l, x)
+    i = int(np.flatnonzero(np.sign(v[:-1]) != np.sign(v[1:]))[0])
+    return brentq(lambda s: spherical_jn(l, s), x[i], x[i + 1], xtol=1e-14)
+
+
+@pytest.fixture(scope="module")
+def still():
+    return flowkit.custom_flow(["0", "0", "0"], domain="ball", name="still")
+
+
+@pytest.fixture(scope="module")
+def spin_z():
+    return flowkit.custom_flow(["-y", "x", "0"], domain="ball", name="spin_z")
+
+
+def test_normalized_legendre_matches_scipy():
+    # scipy.special.lpmv (with the Condon-Shortley phase removed) times the orthonormal factor
+    from math import factorial, pi, sqrt
+
+    from scipy.special import lpmv
+
+    x = np.linspace(-0.9, 0.9, 7)
+    p = normalized_legendre(6, x)
+    for m, l in [(0, 0), (0, 3), (2, 4), (5, 6)]:
+        ref = (-1) ** m * lpmv(m, l, x) * sqrt((2 * l + 1) / (4 * pi) * factorial(l - m) / factorial(l + m))
+        np.testing.assert_allclose(p[m, l], ref, rtol=1e-12, atol=1e-14)
+
+
+def test_free_decay_rates_are_bessel_zeros_squared():
+    # exact identity: poloidal degree l decays at z^2 with j_{l-1}(z) = 0, toroidal at j_l(z) = 0
+    # (pi^2, 20.1907, 33.2175 for the dipole, toroidal l=1 / poloidal l=2, toroidal l=2)
+    b = RadialBasis(18, 3)
+    for l in (1, 2, 3):
+        assert -b.decay_rates(l, "S")[0].real == pytest.approx(first_zero(l - 1) ** 2, abs=1e-8)
+        assert -b.decay_rates(l, "T")[0].real == pytest.approx(first_zero(l) ** 2, abs=1e-8)
+    assert first_zero(0) ** 2 == pytest.approx(np.pi**2, abs=1e-12)
+
+
+def test_free_decay_through_the_whole_solver(still):
+    # u = 0: the leading mode is the poloidal dipole, rate -pi^2 (exact identity)
+    res = growth_rate(still, 1.0, (4, 12), check_resolution=(3, 10))
+    assert res.domain == "ball" and res.growth_rate == pytest.approx(-np.pi**2, abs=1e-8)
+    assert res.converged and res.diagnostics["m"] in (0, 1)
+
+
+def test_rigid_rotation_carries_the_free_decay_spectrum_round(spin_z):
+    # exact identity: for u = Omega z x x the field turns rigidly: lambda = -z^2 - i m Omega Rm
+    rm = 3.0
+    zs, zt = first_zero(0) ** 2, first_zero(1) ** 2
+    for m in (0, 1, 2):
+        vals = np.linalg.eigvals(BallOperator(spin_z, rm, 5, 12, m=m).matrix())
+        expected_rate = zs if m <= 1 else first_zero(1) ** 2
+        lead = vals[np.argmax(vals.real)]
+        assert lead.real == pytest.approx(-expected_rate, abs=1e-8)
+        assert lead.imag == pytest.approx(-m * rm, abs=1e-8)
+        assert np.min(np.abs(vals - (-zt - 1j * m * rm))) < 1e-8 if m >= 1 else True
+
+
+def test_rotation_about_another_axis_gives_the_same_spectrum():
+    # rotation invariance: u = Omega x-hat x x couples all m; its leading eigenvalues are -pi^2 with
+    # frequencies 0, +-Omega Rm (the dipole triplet), as for the rotation about z
+    spin_x = flowkit.custom_flow(["0", "-z", "y"], domain="ball", name="spin_x")
+    rm = 2.0
+    out = sparse_shift_invert(BallOperator(spin_x, rm, 3, 8), nev=6, shift=0.0)
+    vals = np.array([complex(*v) for v in out["eigenvalues"]])
+    for freq in (0.0, rm, -rm):
+        assert np.min(np.abs(vals - complex(-np.pi**2, freq))) < 1e-7
+
+
+def test_bad_input_is_refused_with_the_fix(still):
+    through = flowkit.custom_flow(["1", "0", "0"], domain="ball", name="through")
+    with pytest.raises(FlowkitError, match="u.n = 0"):
+        growth_rate(through, 10.0, (6, 8))
+    with pytest.raises(FlowkitError, match="`rm` must be a positive"):
+        growth_rate(still, -1.0, (6, 8))
+    with pytest.raises(FlowkitError, match="too small for flow 'stf'"):
+        growth_rate(flowkit.flow("stf"), 1.0, (2, 8))
+    free = flowkit.custom_flow(["-y", "x", "0"], domain="unbounded", name="free")
+    with pytest.raises(FlowkitError, match="domain='ball'"):
+        growth_rate(free, 1.0, (6, 8))
+    with pytest.raises(FlowkitError, match=r"\(L, N\)"):
+        growth_rate(still, 1.0, "big")
+
+
+@pytest.fixture(scope="module")
+def t2s2():
+    return benchmark_flow("t2s2")
+
+
+def test_t2s2_onset_near_published_rm(t2s2):
+    # Proc. R. Soc. Lond. A 425 (1989) 407-429 (cited from memory): t2s2 (eps = 0.14) has its
+    # onset near Rm = 54 with a steady m = 1 mode. At (12, 12) the rate differs from the converged
+    # one by about 0.03 (README table), far less than |sigma| at Rm = 45 and 65.
+    lo = growth_rate(t2s2, 45.0, (12, 12), check_resolution=None)
+    hi = growth_rate(t2s2, 65.0, (12, 12), check_resolution=None)
+    assert lo.growth_rate < -1.0 and hi.growth_rate > 1.0
+    assert hi.diagnostics["m"] == 1 and hi.frequency < 1e-6
+
+
+def test_t1s1_onset_is_an_oscillating_m1_mode_near_published_rm():
+    # same source (cited from memory): t1s1 (eps = 0.17) onset near Rm = 155, oscillating, m = 1
+    f = benchmark_flow("t1s1")
+    lo = growth_rate(f, 140.0, (12, 12), m=1, check_resolution=None)
+    hi = growth_rate(f, 170.0, (12, 12), m=1, check_resolution=None)
+    assert lo.growth_rate < 0 < hi.growth_rate and hi.frequency > 10.0
+
+
+def test_eigen_propagator_and_march_agree(t2s2):
+    # three independent solvers of the same discrete problem (ARPACK/LAPACK on the operator,
+    # ARPACK on the time-stepped propagator, time stepping + oscillation fit)
+    rates = [growth_rate(t2s2, 54.0, (8, 8), method=meth, m=1, check_resolution=None, **kw).growth_rate
+             for meth, kw in (("eigen", {}), ("propagator", {"cfl": 0.5}), ("march", {"cfl": 0.5}))]
+    assert rates[1] == pytest.approx(rates[0], abs=2e-5)
+    assert rates[2] == pytest.approx(rates[0], abs=2e-4)
+
+
+def test_ball_result_round_trips_and_plots(t2s2, tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from flowkit.dynamo.plot import plot_mode_slice
+
+    res = growth_rate(t2s2, 60.0, (8, 8), m=1, check_resolution=(6, 6))
+    assert res.check["resolution"] == [6, 6] and res.reason
+    back = GrowthResult.load(res.save(tmp_path / "ball"))
+    np.testing.assert_array_equal(back.mode, res.mode)
+    assert back.orders == res.orders and back.domain == "ball"
+    again = flowkit.load(res.save(tmp_path / "ball.json"))
+    assert again.growth_rate == res.growth_rate
+    fig, axes = plt.subplots(1, 2)
+    for ax, plane in zip(axes, ("meridional", "equatorial")):
+        art = plot_mode_slice(ax, res, plane=plane, resolution=24)
+        assert np.isfinite(art["image"].get_array()).any()
+    plt.close(fig)
+
+
+def test_sweep_and_critical_rm_for_a_ball_flow(t2s2):
+    sweep = sweep_rm(t2s2, [45.0, 65.0], resolution=(8, 8), check_resolution=None, progress=False, m=1)
+    assert sweep.growth_rate[0] < 0 < sweep.growth_rate[1]
+    crit = critical_rm(t2s2, [45.0, 65.0], resolution=(8, 8), progress=False, xtol=1e-2, m=1,
+                       check_resolution=(6, 6))
+    assert 45.0 < crit.rm_critical < 65.0 and crit.uncertainty > 0
