@@ -298,3 +298,13 @@ def test_box_flow_orbit_returns_modulo_the_lattice():
     assert np.allclose(o.shift, [0.0, 0.0, 2 * math.pi])  # one lattice cell up
     assert o.period_time == pytest.approx(2 * math.pi / (B + C), rel=1e-10)
     assert o.trace == pytest.approx(2 * math.cos(2 * math.pi * math.sqrt(B * C) / (B + C)), abs=1e-8)
+
+
+def test_an_orbit_that_leaves_the_domain_is_an_outcome_not_an_orbit():
+    # a leaky swirl in the ball: it spirals out (radius x e^(0.3 * 2 pi) per turn) before it can return
+    from flowkit.errors import FlowkitNotice
+
+    with pytest.warns(FlowkitNotice, match="not divergence-free"):
+        leaky = flowkit.custom_flow(["-y + 0.3*x", "x + 0.3*y", "0"], domain="ball", name="leaky-swirl")
+    o = find_periodic_orbit(leaky, (0.5, 0.0), Plane((0, 1, 0), 0.0, "+"))
+    assert not o.converged and "left the domain" in o.message
