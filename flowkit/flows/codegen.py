@@ -14,6 +14,15 @@ from sympy.printing.pycode import PythonCodePrinter
 
 X, Y, Z, T = sp.symbols("x y z t", real=True)
 COORDS = (X, Y, Z)
+#: Name of the parameter vector inside generated functions; the leading underscore keeps it
+#: out of the user's namespace (parameter names may not start with one), so a parameter may be `p`.
+PARAMS = "_params"
+
+
+def _expr(e):
+    from flowkit.flows.grammar import as_sympy
+
+    return as_sympy(e, "velocity component")
 
 
 class _NumbaPrinter(PythonCodePrinter):
@@ -39,7 +48,7 @@ def _print(expr) -> str:
 
 
 def _body(exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> list[str]:
-    lines = [f"    {sym.name} = p[{i}]" for i, sym in enumerate(params)]
+    lines = [f"    {sym.name} = {PARAMS}[{i}]" for i, sym in enumerate(params)]
     subs, reduced = sp.cse(list(exprs), symbols=sp.numbered_symbols("_c"), optimizations="basic")
     lines += [f"    {sym} = {_print(val)}" for sym, val in subs]
     return lines, reduced
@@ -57,7 +66,7 @@ def velocity_gradient_source(
     params : sequence of sympy symbols
         Parameter symbols, in the order of the parameter vector ``p``.
     """
-    exprs = [sp.sympify(e) for e in exprs]
+    exprs = [_expr(e) for e in exprs]
     grads = [sp.diff(e, c) for e in exprs for c in COORDS]
     out = []
     for name, group in (("velocity", exprs), ("gradient", grads)):
@@ -66,10 +75,10 @@ def velocity_gradient_source(
 
 
 def _function(name: str, exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> list[str]:
-    """Lines of one jitted function ``name(x, y, z, t, p)`` returning a tuple of ``exprs``."""
+    """Lines of one jitted function ``name(x, y, z, t, _params)`` returning a tuple of ``exprs``."""
     lines, reduced = _body(exprs, params)
     ret = ", ".join(_print(e) for e in reduced)
-    return ["@njit(cache=CACHE, error_model=\"numpy\")", f"def {name}(x, y, z, t, p):", *lines, f"    return ({ret},)", ""]
+    return ["@njit(cache=CACHE, error_model=\"numpy\")", f"def {name}(x, y, z, t, {PARAMS}):", *lines, f"    return ({ret},)", ""]
 
 
 def check_symbols(exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> None:
@@ -79,7 +88,7 @@ def check_symbols(exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> None
     allowed = {X, Y, Z, T, *params}
     names = {s.name for s in allowed}
     for i, e in enumerate(exprs):
-        extra = {s for s in sp.sympify(e).free_symbols if s not in allowed}
+        extra = {s for s in _expr(e).free_symbols if s not in allowed}
         if extra:
             bad = ", ".join(sorted(s.name for s in extra))
             raise FlowDefinitionError(
@@ -113,8 +122,11 @@ def split_fields(exprs: Sequence[sp.Expr]) -> tuple[tuple, tuple]:
     SplitUnavailable
         If f is not divergence-free or sympy finds no closed-form antiderivative.
     """
-    f1, f2, f3 = (sp.sympify(e) for e in exprs)
-    div = sp.expand(sum(sp.diff(e, c) for e, c in zip((f1, f2, f3), COORDS)))
+    f1, f2, f3 = (_expr(e) for e in exprs)
+    div = sum(sp.diff(e, c) for e, c in zip((f1, f2, f3), COORDS))
+    if _clearly_nonzero(div):  # cheap numeric test first: expanding a large field can take very long
+        raise SplitUnavailable("the field is not divergence-free (div u is non-zero at a test point)")
+    div = sp.expand(div)
     if div != 0 and sp.simplify(div) != 0:
         raise SplitUnavailable(f"the field is not divergence-free (div u = {div})")
     dx = sp.expand(sp.diff(f1, X))
@@ -125,6 +137,22 @@ def split_fields(exprs: Sequence[sp.Expr]) -> tuple[tuple, tuple]:
     if q.has(sp.Integral) or q.has(sp.Piecewise):
         raise SplitUnavailable(f"d(u)/dx = {dx} has no closed-form antiderivative in y")
     return (f1, -q), (f2 + q, f3)
+
+
+def _clearly_nonzero(expr) -> bool:
+    """True if the sum ``expr`` is far from zero, relative to its terms, at one of three fixed points."""
+    free = sorted(expr.free_symbols, key=lambda s: s.name)
+    terms = sp.Add.make_args(expr)
+    for k in range(3):
+        subs = {s: sp.Float(0.3183098861837907 + 0.1234567 * (i + 1) * (k + 1), 30) for i, s in enumerate(free)}
+        try:
+            vals = [complex(term.evalf(30, subs=subs)) for term in terms]
+        except (TypeError, ValueError, ArithmeticError):
+            return False
+        total, scale = abs(sum(vals)), sum(abs(v) for v in vals)
+        if total == total and scale == scale and total > 1e-9 * scale:
+            return True
+    return False
 
 
 def _planar_with_jacobian(field: tuple, moving: tuple, frozen: sp.Symbol) -> list[sp.Expr]:
@@ -138,8 +166,8 @@ def _planar_with_jacobian(field: tuple, moving: tuple, frozen: sp.Symbol) -> lis
 def splitting_source(exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> str:
     """Source of the sub-fields used by the splitting kernel template.
 
-    Defines ``split_a(x, y, z, t, p)`` (the (x, y) part, z frozen) and
-    ``split_b(x, y, z, t, p)`` (the (y, z) part, x frozen), each returning the
+    Defines ``split_a(x, y, z, t, _params)`` (the (x, y) part, z frozen) and
+    ``split_b(x, y, z, t, _params)`` (the (y, z) part, x frozen), each returning the
     8-tuple of :func:`_planar_with_jacobian`, and ``SPLIT_STATUS = "ok"``. When
     the field cannot be split, only ``SPLIT_STATUS`` (the reason) is defined and
     the template supplies NaN stand-ins that the Python wrapper refuses to run.

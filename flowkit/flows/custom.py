@@ -75,6 +75,7 @@ def _trace(func: Callable, pnames: Sequence[str]):
     import sympy as sp
 
     from flowkit.flows.codegen import T, X, Y, Z
+    from flowkit.flows.grammar import as_sympy
 
     shim = _sympy_namespace()
     g = dict(func.__globals__)
@@ -95,7 +96,7 @@ def _trace(func: Callable, pnames: Sequence[str]):
     psyms = [sp.Symbol(n, real=True) for n in pnames]
     try:
         out = traced(X, Y, Z, T, psyms)
-        exprs = tuple(sp.sympify(e) for e in out)
+        exprs = tuple(as_sympy(e) for e in out)
     except Exception:  # noqa: BLE001 - any failure means "not traceable"; we fall back
         return None
     if len(exprs) != 3:
@@ -106,34 +107,27 @@ def _trace(func: Callable, pnames: Sequence[str]):
     return exprs
 
 
-def _parse_strings(items: Sequence[str], pnames: Sequence[str]):
-    import sympy as sp
-    from sympy.parsing.sympy_parser import parse_expr, standard_transformations
+def _parse_strings(items: Sequence[str], pnames: Sequence[str], what: str = "velocity component"):
+    """Formula strings through flowkit's own grammar (:mod:`flowkit.flows.grammar`); no code runs."""
+    from flowkit.flows.grammar import parse_formulas
 
-    from flowkit.flows.codegen import T, X, Y, Z
-
-    local = {"x": X, "y": Y, "z": Z, "t": T, "pi": sp.pi}
-    local.update({n: sp.Symbol(n, real=True) for n in pnames})
-    out = []
-    for i, s in enumerate(items):
-        try:
-            out.append(parse_expr(s, local_dict=local, transformations=standard_transformations))
-        except Exception as exc:  # noqa: BLE001
-            raise FlowDefinitionError(f"velocity component {i} ({s!r}) is not a valid formula: {exc}") from exc
-    return tuple(out)
+    return parse_formulas(items, pnames, what=what)
 
 
-def _normalize_symbols(exprs, pnames):
-    """Map user symbols named x, y, z, t or a parameter onto flowkit's own symbols."""
+def _normalize_symbols(exprs, pnames, what: str = "velocity component"):
+    """Map user symbols named x, y, z, t or a parameter onto flowkit's own symbols.
+
+    Items may be sympy expressions, numbers or formula strings (read by the grammar).
+    """
     import sympy as sp
 
-    from flowkit.flows.codegen import T, X, Y, Z
+    from flowkit.flows.grammar import as_expression, coordinate_symbols
 
-    table = {"x": X, "y": Y, "z": Z, "t": T}
+    table = coordinate_symbols()
     table.update({n: sp.Symbol(n, real=True) for n in pnames})
     out = []
-    for e in exprs:
-        e = sp.sympify(e)
+    for i, e in enumerate(exprs):
+        e = as_expression(e, pnames, label=f"{what} {i}")
         out.append(e.xreplace({s: table[s.name] for s in e.free_symbols if s.name in table}))
     return tuple(out)
 
@@ -173,16 +167,22 @@ def custom_flow(
         at random points (``flow.family.structure["divergence_max"]``) and a
         clearly non-solenoidal ``"flow"`` triggers a warning naming it.
     """
+    from flowkit.flows.grammar import check_parameter_names, to_text
+
     params = dict(params or {})
-    for key in params:
-        if not str(key).isidentifier() or key in ("x", "y", "z", "t", "p"):
-            raise FlowkitError(f"parameter name {key!r} must be an identifier other than x, y, z, t, p")
+    check_parameter_names(params, "params")
+    for key, val in params.items():
+        if isinstance(val, bool) or not isinstance(val, (int, float, np.integer, np.floating)) \
+                or not np.isfinite(val):
+            raise FlowkitError(f"`params`: parameter {key!r} must have a finite number as default; got {val!r}")
     if domain not in DOMAINS:
         raise FlowkitError(f"`domain` must be one of {', '.join(DOMAINS)}; got {domain!r}")
     if kind not in ("flow", "system", "planar"):
         raise FlowkitError(f"`kind` must be 'flow', 'system' or 'planar'; got {kind!r}")
-    if period is not None and not (np.isfinite(period) and period > 0):
-        raise FlowkitError(f"`period` must be a positive number or None; got {period!r}")
+    if period is not None:
+        from flowkit.validation import positive
+
+        period = positive(period, "period", what="number or None")
     pnames = list(params)
     period_fn = None if period is None else (lambda p, _T=float(period): _T)
 
@@ -206,7 +206,7 @@ def custom_flow(
                                 description="user-defined flow (symbolic)")
         if period is not None:
             fam.structure["period"] = float(period)
-        fam.structure["recipe"] = {"custom": [str(e) for e in exprs], "params": params, "domain": domain,
+        fam.structure["recipe"] = {"custom": [to_text(e) for e in exprs], "params": params, "domain": domain,
                                    "period": period, "name": name, "kind": kind}
     else:
         fam = _callable_family(velocity, name, params, domain, period_fn, kind)

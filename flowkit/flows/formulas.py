@@ -8,6 +8,7 @@ import sympy as sp
 
 from flowkit.flows.base import FlowFamily
 from flowkit.flows.codegen import check_symbols, velocity_gradient_source
+from flowkit.flows.grammar import as_sympy
 
 
 def family_from_exprs(
@@ -22,7 +23,7 @@ def family_from_exprs(
 ) -> FlowFamily:
     """Compile-ready family from three expressions in x, y, z, t and named parameters."""
     syms = [sp.Symbol(n, real=True) for n, _ in params]
-    exprs = tuple(sp.sympify(e) for e in exprs)
+    exprs = tuple(as_sympy(e, f"{name} component {i}") for i, e in enumerate(exprs))
     check_symbols(exprs, syms)
     structure = {"representation": "closed-form expressions"}
     if period_expr:

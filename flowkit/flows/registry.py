@@ -97,21 +97,36 @@ def flow(name: str, **params: float) -> Flow:
     return Flow(fam, params)
 
 
-def rebuild_flow(recipe: dict, params: dict) -> Flow:
-    """Rebuild a flow from the recipe in its provenance (used for pickling)."""
-    if "preset" in recipe:
+def rebuild_flow(recipe: dict, params: dict, where: str = "recipe") -> Flow:
+    """Rebuild a flow (or map) from the recipe in its provenance.
+
+    The recipe is data (it may come from a file): :func:`flowkit.flows.recipes.check_recipe`
+    refuses unknown keys and types, naming ``where``; formulas are read by the
+    formula grammar, never evaluated.
+    """
+    from flowkit.flows.recipes import check_params, check_recipe
+
+    kind = check_recipe(recipe, where)
+    params = check_params(params, f"{where} parameters")
+    if kind == "preset":
         return flow(recipe["preset"], **params)
-    if "lamb" in recipe:
+    if kind == "lamb":
         from flowkit.flows.sphere import lamb_flow
 
         coeffs = dict(recipe["lamb"])
         coeffs.update(params)
         return lamb_flow(coeffs, name=recipe.get("name", "lamb"))
-    if "custom" in recipe:
+    pars = dict(recipe["params"])
+    pars.update(params)
+    try:
+        if kind == "map":
+            from flowkit.flows import custom_map
+
+            kw = {k: recipe[k] for k in ("inverse", "periods", "box", "name") if k in recipe}
+            return custom_map(list(recipe["map"]), pars, **kw)
         from flowkit.flows.custom import custom_flow
 
-        pars = dict(recipe["params"])
-        pars.update(params)
-        return custom_flow(recipe["custom"], pars, domain=recipe["domain"], period=recipe["period"],
+        return custom_flow(list(recipe["custom"]), pars, domain=recipe["domain"], period=recipe["period"],
                            name=recipe["name"], kind=recipe["kind"])
-    raise FlowkitError(f"cannot rebuild a flow from recipe {recipe!r}")
+    except FlowkitError as exc:
+        raise type(exc)(f"{where}: {exc}") from None

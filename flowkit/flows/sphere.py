@@ -31,6 +31,7 @@ import sympy as sp
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow, FlowFamily
 from flowkit.flows.codegen import X, Y, Z, velocity_gradient_source
+from flowkit.flows.grammar import as_sympy
 from flowkit.flows.harmonics import cross, grad, order_label, parse_order, solid_harmonic
 
 #: Largest harmonic degree the builders accept.
@@ -90,7 +91,7 @@ def lamb_expressions(coefficients: Mapping[str, object]) -> tuple:
     u = [sp.Integer(0)] * 3
     for label, c in coefficients.items():
         f = basis_field(label)
-        u = [u[i] + sp.sympify(c) * f[i] for i in range(3)]
+        u = [u[i] + as_sympy(c, f"coefficient {label}") * f[i] for i in range(3)]
     return tuple(sp.expand(e) for e in u)
 
 
