@@ -26,6 +26,7 @@ orbits from random seeds, with the binomial standard error sqrt(f (1 - f) / n).
 from __future__ import annotations
 
 import math
+import time as _time
 import warnings
 from dataclasses import dataclass, field
 
@@ -147,16 +148,20 @@ def orbit_ftle(
     N = len(pts)
     logs = np.full((N, 2), np.nan)
     outcome = np.full(N, -1, dtype=np.int8)   # -1: not run (a partial result)
-    step = max(16, -(-N // 20))               # about 20 chunks: progress, time budget and Ctrl-C between them
+    # chunks of seeds, doubled while a chunk takes under a quarter second: progress, the time
+    # budget and Ctrl-C act between chunks (each orbit is independent: results do not depend on it)
+    step, a = 16, 0
     with Budget(total=N, desc=f"indicator {flow.name}", unit="orbit", progress=progress,
                 max_seconds=max_seconds) as budget:
-        for a in range(0, N, step):
-            if budget.expired():
-                break
+        while a < N and not budget.expired():
+            tic = _time.perf_counter()
             run = run_tangent(flow, tangent_states(pts[a:a + step], 1, v0), times, settings, threads)
             logs[a:a + step] = run.logs[:, :, 0]
             outcome[a:a + step] = run.outcome
             budget.advance(len(run.outcome))
+            a += step
+            if _time.perf_counter() - tic < 0.25:
+                step = min(2 * step, 4096)
     ok = outcome == Outcome.FINISHED
     values = np.where(ok, logs.sum(axis=1) / time, np.nan)
     half = logs[:, 0] / (0.5 * time)
