@@ -40,7 +40,9 @@ def _plain(result: dict, indent: str = "") -> str:
 
 
 def build_parser() -> tuple[argparse.ArgumentParser, dict]:
-    parser = argparse.ArgumentParser(
+    from flowkit.cli.common import SuggestingParser
+
+    parser = SuggestingParser(
         prog="flowkit",
         description="flowkit: chaotic flows and kinematic dynamos. Every subcommand takes --json.",
     )
@@ -66,6 +68,9 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     mod = modules[args.command]
     try:
+        from flowkit.cli.common import OUTPUT_OPTIONS, check_outputs
+
+        check_outputs(args, *OUTPUT_OPTIONS)  # before any work: a bad path must not cost a finished result
         result = _jsonable(mod.run(args))
     except FlowkitError as exc:
         if args.json:

@@ -91,7 +91,9 @@ def _plot(field, path: str) -> str:
 
     fig, ax = plt.subplots(figsize=(6.4, 4.8), layout="constrained")
     plot_ftle(ax, field)
-    fig.savefig(path, dpi=150)
+    from flowkit.cli.common import save_figure
+
+    path = save_figure(fig, path, dpi=150)
     plt.close(fig)
     return path
 

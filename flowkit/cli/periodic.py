@@ -120,9 +120,11 @@ def _plot(args, flow, section, result, orbit, man) -> str:
         plot_manifold(ax, man)
     ax.set_aspect("equal")
     ax.legend(loc="upper right", fontsize=7)
-    fig.savefig(args.plot, dpi=150)
+    from flowkit.cli.common import save_figure
+
+    path = save_figure(fig, args.plot, dpi=150)
     plt.close(fig)
-    return str(args.plot)
+    return path
 
 
 def human(result: dict) -> str:

@@ -103,7 +103,9 @@ def _figure(sec, path: str) -> str:
     plot_section(ax, sec)
     pars = ", ".join(f"{k} = {v:g}" for k, v in sec.provenance["parameters"].items())
     ax.set_title(f"{sec.provenance['flow']} ({pars})" if pars else sec.provenance["flow"], fontsize=10)
-    fig.savefig(path, dpi=200)
+    from flowkit.cli.common import save_figure
+
+    path = save_figure(fig, path, dpi=200)
     plt.close(fig)
     return path
 

@@ -12,12 +12,14 @@ from flowkit.sweep.store import SweepStore
 
 
 def open_results(store_path):
-    """The finished points of a sweep store as an ``xarray.Dataset``."""
-    import json
-    from pathlib import Path
+    """The finished points of a sweep store as an ``xarray.Dataset``.
 
-    manifest = json.loads((Path(store_path) / "manifest.json").read_text())
-    return SweepStore(store_path, SweepSpec(**manifest["spec"])).to_xarray()
+    The store is data: its manifest is checked key by key and no formula in it is evaluated.
+    """
+    from flowkit.sweep.store import read_manifest
+
+    manifest, where = read_manifest(store_path)
+    return SweepStore(store_path, SweepSpec.from_dict(manifest["spec"], f"{where}: key 'spec'")).to_xarray()
 
 
 __all__ = ["MEASURES", "register", "run_sweep", "SweepSpec", "SweepStore", "parse_range", "open_results"]

@@ -25,7 +25,7 @@ def compute_point(spec_dict: dict, index: int) -> dict:
     from flowkit.flows.registry import rebuild_flow
     from flowkit.sweep.measures import MEASURES
 
-    spec = SweepSpec(**spec_dict) if isinstance(spec_dict, dict) else spec_dict
+    spec = SweepSpec.from_dict(spec_dict, "sweep task payload")
     params = spec.points()[index]
     flow = rebuild_flow(spec.flow, {**spec.base, **params})
     t0 = time.perf_counter()
@@ -45,7 +45,7 @@ def _warm_worker(spec_dict: dict) -> float:
     """Compile the flow's kernels on a worker before tasks arrive."""
     from flowkit.flows.registry import rebuild_flow
 
-    spec = SweepSpec(**spec_dict)
+    spec = SweepSpec.from_dict(spec_dict, "sweep task payload")
     return rebuild_flow(spec.flow, dict(spec.base)).family.warm()
 
 

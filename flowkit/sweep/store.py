@@ -52,15 +52,7 @@ class SweepStore:
         if self.path.exists() and not self.path.is_dir():
             raise FlowkitError(f"store path {str(self.path)!r} is a file, not a folder; choose a folder path")
         if manifest.exists():
-            try:
-                data = json.loads(manifest.read_text())
-            except (OSError, json.JSONDecodeError) as exc:
-                raise FlowkitError(
-                    f"store {str(self.path)!r} has an unreadable manifest ({exc}); it was left untouched — "
-                    "use a new --store path"
-                ) from None
-            if data.get("magic") != MAGIC:
-                raise FlowkitError(f"{str(self.path)!r} is not a flowkit sweep store; use a new --store path")
+            data, _ = read_manifest(self.path)
             if data.get("fingerprint") != self.spec.fingerprint():
                 raise FlowkitError(
                     f"store {str(self.path)!r} holds a different sweep (flow, ranges, measures or options differ); "
@@ -91,9 +83,9 @@ class SweepStore:
         out = {}
         for f in sorted(self.points_dir.glob("[0-9]*.json")):
             try:
-                rec = json.loads(f.read_text())
-                idx = int(rec["index"])
-            except (OSError, ValueError, KeyError, json.JSONDecodeError):
+                rec = _check_record(json.loads(f.read_text(encoding="utf-8")), self.spec)
+                idx = rec["index"]
+            except (OSError, ValueError, KeyError, TypeError, json.JSONDecodeError):
                 raise FlowkitError(
                     f"store record {f.name} in {str(self.path)!r} is corrupt; the store was left untouched — "
                     "delete that file to recompute the point, or use a new --store path"
@@ -140,6 +132,49 @@ class SweepStore:
         self.to_xarray().to_netcdf(tmp)
         os.replace(tmp, path)
         return path
+
+
+#: Keys of a manifest.
+MANIFEST_KEYS = ("magic", "fingerprint", "spec", "flowkit_version", "created", "runs")
+
+
+def read_manifest(store_path) -> tuple[dict, str]:
+    """The manifest of a store, checked key by key (it is data from a file); also its path as text."""
+    path = Path(store_path) / "manifest.json"
+    where = str(path)
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise FlowkitError(f"{str(store_path)!r} holds no manifest.json; it is not a flowkit sweep store") from None
+    except (OSError, ValueError) as exc:  # ValueError covers bad JSON and text that is not UTF-8
+        raise FlowkitError(f"store {str(store_path)!r} has an unreadable manifest ({exc}); it was left untouched — "
+                           "use a new --store path") from None
+    if not isinstance(data, dict) or data.get("magic") != MAGIC:
+        raise FlowkitError(f"{str(store_path)!r} is not a flowkit sweep store; use a new --store path")
+    for key in data:
+        if key not in MANIFEST_KEYS:
+            raise FlowkitError(f"{where}: unknown key {key!r}; a manifest holds {', '.join(MANIFEST_KEYS)}")
+    if not isinstance(data.get("spec"), dict):
+        raise FlowkitError(f"{where}: key 'spec' must be a mapping (the sweep spec)")
+    if not isinstance(data.get("fingerprint"), str) or not isinstance(data.get("runs", []), list):
+        raise FlowkitError(f"{where}: key 'fingerprint' must be text and 'runs' a list")
+    return data, where
+
+
+def _check_record(rec, spec: SweepSpec) -> dict:
+    """A point record read back: index in range, measures holding numbers or null (else ValueError)."""
+    n = len(spec.points())
+    if not isinstance(rec, dict) or isinstance(rec.get("index"), bool) or not isinstance(rec.get("index"), int) \
+            or not 0 <= rec["index"] < n or not isinstance(rec.get("measures"), dict):
+        raise ValueError("bad record")
+    for m in rec["measures"].values():
+        if not isinstance(m, dict):
+            raise ValueError("bad measure")
+        for part in ("value", "stderr"):
+            v = m.get(part)
+            if not (v is None or (isinstance(v, (int, float)) and not isinstance(v, bool))):
+                raise ValueError("bad number")
+    return rec
 
 
 def _now() -> str:
