@@ -99,29 +99,58 @@ def random_in_domain(flow: Flow, n: int, seed: int | None = 0) -> np.ndarray:
     return (rng.random((n, 3)) - 0.5) * 4.0
 
 
-def read_seed_file(path) -> np.ndarray:
-    """Seeds from a text file: one ``x y z`` per line (blank lines and ``#`` comments allowed)."""
+def read_points_file(path, columns: int = 3, what: str = "points file") -> np.ndarray:
+    """Rows of ``columns`` finite numbers from a UTF-8 text file (blank lines and ``#`` comments allowed).
+
+    Numbers may be separated by blanks or commas. Errors name the file and line:
+    text that is not UTF-8, a row with the wrong number of columns, a word that is
+    not a number, NaN or infinity, an empty file, or a file too large for memory.
+    """
+    from flowkit.validation import memory
+
     path = Path(path)
     try:
-        text = path.read_text()
+        size = path.stat().st_size
     except OSError as exc:
-        raise FlowkitError(f"cannot read seed file {str(path)!r}: {exc.strerror}") from None
+        raise FlowkitError(f"cannot read {what} {str(path)!r}: {exc.strerror}") from None
+    memory(size * 12.0, f"{what} {str(path)!r}", value=f"{size:,} bytes")  # floats plus Python rows
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise FlowkitError(f"cannot read {what} {str(path)!r}: {exc.strerror}") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        lineno = raw[: exc.start].count(b"\n") + 1
+        raise FlowkitError(f"{what} {str(path)!r} line {lineno}: not UTF-8 text (byte 0x{raw[exc.start]:02x}); "
+                           "save it as plain UTF-8 text") from None
+    names = "x y z" if columns == 3 else f"{columns} numbers"
     rows = []
-    for lineno, raw in enumerate(text.splitlines(), start=1):
-        body = raw.split("#", 1)[0].strip()
+    for lineno, line in enumerate(text.splitlines(), start=1):
+        body = line.split("#", 1)[0].strip()
         if not body:
             continue
         parts = body.replace(",", " ").split()
         try:
             vals = [float(v) for v in parts]
         except ValueError:
-            raise FlowkitError(f"seed file {str(path)!r} line {lineno}: expected three numbers 'x y z'; got {raw.strip()!r}") from None
-        if len(vals) != 3 or not all(math.isfinite(v) for v in vals):
-            raise FlowkitError(f"seed file {str(path)!r} line {lineno}: expected three finite numbers 'x y z'; got {raw.strip()!r}")
+            raise FlowkitError(f"{what} {str(path)!r} line {lineno}: expected {columns} numbers '{names}'; "
+                               f"got {line.strip()[:80]!r}") from None
+        if len(vals) != columns:
+            raise FlowkitError(f"{what} {str(path)!r} line {lineno}: expected {columns} numbers '{names}', "
+                               f"found {len(vals)}: {line.strip()[:80]!r}")
+        if not all(math.isfinite(v) for v in vals):
+            raise FlowkitError(f"{what} {str(path)!r} line {lineno}: holds NaN or infinity ({line.strip()[:80]!r}); "
+                               "every number must be finite")
         rows.append(vals)
     if not rows:
-        raise FlowkitError(f"seed file {str(path)!r} has no seeds; write one 'x y z' per line")
+        raise FlowkitError(f"{what} {str(path)!r} has no rows; write {columns} numbers per line")
     return np.array(rows, dtype=np.float64)
+
+
+def read_seed_file(path) -> np.ndarray:
+    """Seeds from a text file: one ``x y z`` per line (see :func:`read_points_file`)."""
+    return read_points_file(path, 3, "seed file")
 
 
 def write_seed_file(path, seeds) -> Path:
