@@ -80,6 +80,30 @@ def pair_solid_angle(p1, p2, p3, p4):
     return om if vol > 0.0 else -om
 
 
+@njit(cache=True, inline="always")
+def _omega(ax, ay, az, bx, by, bz, cx, cy, cz, dx, dy, dz):
+    """:func:`pair_solid_angle` on scalar coordinates (segment a->b against c->d)."""
+    r13x, r13y, r13z = cx - ax, cy - ay, cz - az
+    r14x, r14y, r14z = dx - ax, dy - ay, dz - az
+    r23x, r23y, r23z = cx - bx, cy - by, cz - bz
+    r24x, r24y, r24z = dx - bx, dy - by, dz - bz
+    r12x, r12y, r12z = bx - ax, by - ay, bz - az
+    r34x, r34y, r34z = dx - cx, dy - cy, dz - cz
+    vol = ((r34y * r12z - r34z * r12y) * r13x + (r34z * r12x - r34x * r12z) * r13y
+           + (r34x * r12y - r34y * r12x) * r13z)
+    if vol == 0.0:
+        return 0.0
+    n1x, n1y, n1z, a = _unit_cross(r13x, r13y, r13z, r14x, r14y, r14z)
+    n2x, n2y, n2z, b = _unit_cross(r14x, r14y, r14z, r24x, r24y, r24z)
+    n3x, n3y, n3z, c = _unit_cross(r24x, r24y, r24z, r23x, r23y, r23z)
+    n4x, n4y, n4z, d = _unit_cross(r23x, r23y, r23z, r13x, r13y, r13z)
+    if a == 0.0 or b == 0.0 or c == 0.0 or d == 0.0:
+        return 0.0
+    om = (_asin_dot(n1x, n1y, n1z, n2x, n2y, n2z) + _asin_dot(n2x, n2y, n2z, n3x, n3y, n3z)
+          + _asin_dot(n3x, n3y, n3z, n4x, n4y, n4z) + _asin_dot(n4x, n4y, n4z, n1x, n1y, n1z))
+    return om if vol > 0.0 else -om
+
+
 @njit(cache=True)
 def segment_distance(p1, p2, p3, p4):
     """Smallest distance between segments p1p2 and p3p4 (closest points by clamped parameters).
@@ -138,17 +162,23 @@ def writhe_rows(P, rows, dmin, jmin):
     half = n // 2
     for i in prange(n):
         i1 = (i + 1) % n
+        ax, ay, az = P[i, 0], P[i, 1], P[i, 2]
+        bx, by, bz = P[i1, 0], P[i1, 1], P[i1, 2]
         acc = 0.0
         best = math.inf
         bj = -1
         for dj in range(2, half + 1):
             if 2 * dj == n and i >= half:
                 continue
-            j = (i + dj) % n
-            j1 = (j + 1) % n
+            j = i + dj
+            if j >= n:
+                j -= n
+            j1 = j + 1
+            if j1 == n:
+                j1 = 0
             if j1 == i:
                 continue
-            acc += pair_solid_angle(P[i], P[i1], P[j], P[j1])
+            acc += _omega(ax, ay, az, bx, by, bz, P[j, 0], P[j, 1], P[j, 2], P[j1, 0], P[j1, 1], P[j1, 2])
             dd = _closer(P, i, i1, P, j, j1, best)
             if dd < best:
                 best = dd
@@ -169,12 +199,14 @@ def linking_rows(P, Q, rows, dmin, jmin):
     m = Q.shape[0]
     for i in prange(n):
         i1 = (i + 1) % n
+        ax, ay, az = P[i, 0], P[i, 1], P[i, 2]
+        bx, by, bz = P[i1, 0], P[i1, 1], P[i1, 2]
         acc = 0.0
         best = math.inf
         bj = -1
         for j in range(m):
-            j1 = (j + 1) % m
-            acc += pair_solid_angle(P[i], P[i1], Q[j], Q[j1])
+            j1 = j + 1 if j + 1 < m else 0
+            acc += _omega(ax, ay, az, bx, by, bz, Q[j, 0], Q[j, 1], Q[j, 2], Q[j1, 0], Q[j1, 1], Q[j1, 2])
             dd = _closer(P, i, i1, Q, j, j1, best)
             if dd < best:
                 best = dd
