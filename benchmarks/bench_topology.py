@@ -59,8 +59,9 @@ def main(argv=None) -> dict:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="N = 2e4 instead of 1e5")
     ap.add_argument("--ref-points", type=int, default=2000, help="points of the numpy reference run")
+    ap.add_argument("--points", type=int, default=None, help="curve points (default 1e5; --quick 2e4)")
     args = ap.parse_args(argv)
-    n = 20_000 if args.quick else 100_000
+    n = args.points or (20_000 if args.quick else 100_000)
     nref = args.ref_points
     writhe_sum(knot(64), 1), writhe_sum(knot(64), 2), linking_sum(knot(64), knot(64) + 5.0)  # compile
     P, R = knot(n), knot(nref)
