@@ -381,3 +381,22 @@ def test_log_sliders_keep_the_starting_value_and_ignore_rounding_echoes():
     s.value = 6.0
     assert calls == [1]
     ex.close()
+
+
+@pytest.mark.parametrize("kind", ["section", "ftle", "growth", "dynamo"])
+def test_every_label_and_title_lies_inside_the_figure(kind):
+    ex = {"section": lambda: SectionExplorer("stf", **SMALL),
+          "ftle": lambda: FTLEExplorer("stf", resolution=6, preview_resolution=4, time=0.5),
+          "growth": lambda: GrowthExplorer("stf", time=1.0, particles=6, preview_particles=4, samples=6),
+          "dynamo": lambda: DynamoExplorer("abc", rm=10.0, resolution=8, preview_resolution=8)}[kind]()
+    ex.update()
+    ex.fig.canvas.draw()
+    renderer = ex.fig.canvas.get_renderer()
+    frame = ex.fig.bbox
+    for ax in ex.fig.axes:  # an axes' tight box holds what it draws: title, labels, tick labels
+        if not ax.get_visible():
+            continue
+        box = ax.get_tightbbox(renderer)
+        inside = box.x0 >= frame.x0 - 1 and box.x1 <= frame.x1 + 1 and box.y0 >= frame.y0 - 1 and box.y1 <= frame.y1 + 1
+        assert inside, f"{kind}: '{ax.get_title()}' axes (labels {ax.get_xlabel()!r}, {ax.get_ylabel()!r}) run off the figure"
+    ex.close()

@@ -66,16 +66,17 @@ def test_readme_python_blocks_run(tmp_path):
     for k, (lang, body, line) in enumerate(readme_blocks(README.read_text())):
         if lang != "python" or SKIP in body:
             continue
-        parts.append(f"print('README block at line {line}', flush=True)\n{body}")
+        parts.append(f"print('README block at line {line}', round(__import__('time').perf_counter() - _T0, 1), "
+                     f"flush=True)\n{body}")
     script = tmp_path / "readme_blocks.py"
-    script.write_text("\n".join(parts))
+    script.write_text("_T0 = __import__('time').perf_counter()\n" + "\n".join(parts))
     tic = time.perf_counter()
     run = subprocess.run([sys.executable, str(script)], cwd=tmp_path, env=_env(tmp_path), capture_output=True,
                          text=True, timeout=600)
     seconds = time.perf_counter() - tic
     last = [ln for ln in run.stdout.splitlines() if ln.startswith("README block at line")]
     assert run.returncode == 0, f"{last[-1] if last else 'README'} failed:\n{run.stderr[-3000:]}"
-    print(f"README Python blocks: {seconds:.1f} s")
+    print(f"README Python blocks: {seconds:.1f} s; started at (s):", *last, sep="\n")
 
 
 def _commands():

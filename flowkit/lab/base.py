@@ -303,10 +303,14 @@ class Explorer:
         import ipywidgets as w
 
         if getattr(self, "_widget", None) is None:
+            # The controls keep their width and move under the figure when the notebook is too
+            # narrow for both side by side (a laptop window with the file browser open).
             side = w.VBox([w.HBox([self.flow_picker, self.reset_button]), self.sliders_box,
                            *self._extra_controls(), w.HBox(list(self.export_buttons.values())),
-                           self.log, self.status], layout=w.Layout(width="420px"))
-            self._widget = w.HBox([self._canvas_widget(), side])
+                           self.log, self.status], layout=w.Layout(width="400px", flex="0 0 auto"))
+            canvas = self._canvas_widget()
+            canvas.layout.flex = "0 0 auto"
+            self._widget = w.HBox([canvas, side], layout=w.Layout(flex_flow="row wrap", align_items="flex-start"))
         return self._widget
 
     def show(self):

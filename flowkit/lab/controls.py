@@ -93,7 +93,10 @@ def moved(change, rel: float = 1e-9) -> bool:
     old, new = change.get("old"), change.get("new")
     if not isinstance(old, (int, float)) or not isinstance(new, (int, float)):
         return True
-    return abs(new - old) > rel * max(abs(old), abs(new))
+    owner = change.get("owner")
+    # a linear slider's echo can turn 0.0 into 2.2e-16: compare with its step too
+    step = 0.0 if owner is None or "Log" in type(owner).__name__ else float(getattr(owner, "step", 0.0) or 0.0)
+    return abs(new - old) > max(rel * max(abs(old), abs(new)), 1e-6 * step)
 
 
 class Debouncer:
@@ -212,9 +215,9 @@ class PlaneControls:
         self.direction = None
         if direction:
             self.direction = w.ToggleButtons(
-                options=list(DIRECTION_CHOICES), value=DEFAULT_DIRECTION, description="crossings",
+                options=list(DIRECTION_CHOICES), value=DEFAULT_DIRECTION, description="direction",
                 tooltips=["only where the normal coordinate increases", "only where it decreases",
-                          "every crossing (default)"], style={"button_width": "48px"})
+                          "every crossing (default)"], style={"button_width": "58px"})
 
     @property
     def widgets(self) -> list:

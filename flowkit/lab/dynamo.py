@@ -18,6 +18,7 @@ import numpy as np
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
 from flowkit.lab.base import Explorer
+from flowkit.lab.controls import log_slider, moved
 
 #: Periodic presets offered by the flow picker (the solver needs the 2*pi box).
 DYNAMO_PRESETS = ("abc", "roberts", "circular")
@@ -54,7 +55,7 @@ class DynamoExplorer(Explorer):
 
     def __init__(self, flow="abc", *, params=None, rm: float = 10.0, resolution: int = 16,
                  preview_resolution: int = 8, kz: float | None = None, method: str = "eigen",
-                 presets=DYNAMO_PRESETS, figsize=(9.0, 4.2), **kw):
+                 presets=DYNAMO_PRESETS, figsize=(5.4, 6.6), **kw):
         import ipywidgets as w
 
         if not (isinstance(rm, (int, float)) and math.isfinite(rm) and 0.1 <= rm <= 300):
@@ -68,15 +69,14 @@ class DynamoExplorer(Explorer):
             raise FlowkitError(f"`kz` must be a number between 0 and 3 (the slider's range); got {kz!r}")
         self.preview_resolution = int(preview_resolution)
         self.history: dict[tuple, dict[float, tuple[float, float]]] = {}  #: curve key -> {Rm: (rate, freq)}
-        self.rm_slider = w.FloatLogSlider(value=float(rm), base=10, min=-1, max=math.log10(300), step=0.01,
-                                          description="Rm", continuous_update=True, layout=w.Layout(width="95%"))
+        self.rm_slider = log_slider(float(rm), -1, math.log10(300), 0.01, "Rm")
         self.resolution_picker = w.Dropdown(options=list(RESOLUTIONS), value=int(resolution), description="N")
         self.method_picker = w.Dropdown(options=["eigen", "march"], value=method, description="method")
         self.kz_toggle = w.Checkbox(value=kz is not None, description="one vertical wavenumber kz", indent=False)
         self.kz_slider = w.FloatSlider(value=0.6 if kz is None else float(kz), min=0.0, max=3.0, step=0.01,
                                        description="kz", continuous_update=True, layout=w.Layout(width="95%"))
         super().__init__(flow, params=params, presets=presets, figsize=figsize, **kw)
-        self.rm_slider.observe(lambda _c: self.changed(), names="value")
+        self.rm_slider.observe(lambda c: self.changed() if moved(c) else None, names="value")
         self.kz_slider.observe(lambda _c: self.changed() if self.kz_toggle.value else None, names="value")
         for control in (self.resolution_picker, self.method_picker, self.kz_toggle):
             control.observe(lambda _c: self._full.trigger(), names="value")
@@ -125,7 +125,8 @@ class DynamoExplorer(Explorer):
 
     # -- drawing ----------------------------------------------------------------------------
     def _build_axes(self) -> None:
-        self.mode_ax, self.curve_ax = self.fig.subplots(1, 2)
+        # stacked, so the explorer fits a laptop-width notebook beside its controls or above them
+        self.mode_ax, self.curve_ax = self.fig.subplots(2, 1, height_ratios=(1.15, 1))
         two_pi = 2 * np.pi
         self.image = self.mode_ax.imshow(np.zeros((2, 2)), origin="lower", extent=(0, two_pi, 0, two_pi),
                                          cmap="magma", interpolation="bilinear", vmin=0.0, vmax=1.0)
@@ -136,6 +137,8 @@ class DynamoExplorer(Explorer):
         (self.current_point,) = self.curve_ax.plot([], [], "*", color="C3", ms=12)
         self.curve_ax.axhline(0.0, color="0.5", lw=0.8, ls="--")
         self.curve_ax.set(xscale="log", xlabel="magnetic Reynolds number Rm", ylabel="growth rate")
+        for fmt in (self.curve_ax.xaxis.set_major_formatter, self.curve_ax.xaxis.set_minor_formatter):
+            fmt("{x:g}")  # 8, 10, 20 rather than 8x10^0
         self.curve_ax.grid(alpha=0.3)
 
     def _draw(self, res, preview: bool) -> None:

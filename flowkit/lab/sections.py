@@ -30,7 +30,7 @@ import numpy as np
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
 from flowkit.lab.base import EXPLORER_PRESETS, Explorer, axis_name, finite_range
-from flowkit.lab.controls import DEFAULT_DIRECTION, PlaneControls, coordinate_plane, direction_text
+from flowkit.lab.controls import DEFAULT_DIRECTION, PlaneControls, coordinate_plane, direction_text, moved
 from flowkit.lab.palette import ORBIT_COLOURS, orbit_cmap
 from flowkit.plot import plot_section
 from flowkit.sections import Plane, Section, Stroboscopic, poincare_section, warm_sections
@@ -189,8 +189,8 @@ class SectionExplorer(Explorer):
         self.skeleton.clear()
         self._frame()
 
-    def _on_plane(self, _change) -> None:
-        if self._quiet:
+    def _on_plane(self, change) -> None:
+        if self._quiet or not moved(change):
             return
         self._frame()  # the seeds (points in space) stay: the same orbits, cut by another plane
         self.changed()
@@ -352,12 +352,13 @@ class SectionExplorer(Explorer):
         pc = self.plane_controls
         if not self._base.steady:
             return f"stroboscopic (every period), seen along {pc.normal.value}"
-        return f"plane {pc.normal.value} = {pc.offset.value:.3g}, " + direction_text(pc.normal.value,
+        offset = round(pc.offset.value, 6) + 0.0  # no "2.22e-16" from a slider's rounding
+        return f"plane {pc.normal.value} = {offset:.3g}, " + direction_text(pc.normal.value,
                                                                                       pc.direction.value)
 
     def _describe(self, sec: Section) -> str:
         bad = {k: v for k, v in sec.outcomes.items() if v and k not in ("crossing budget", "finished")}
-        text = f"{sec.n_orbits} orbits, {sec.crossings_total} crossings"
+        text = f"{sec.n_orbits} orbits, {sec.crossings_total} crossings ({self.section_text()})"
         return text + (f"; {bad}" if bad else "")
 
     # -- exports ---------------------------------------------------------------------------
