@@ -31,6 +31,10 @@ _LAZY = {
     "sweep_rm": "flowkit.dynamo",
     "sweep_kz": "flowkit.dynamo",
     "critical_rm": "flowkit.dynamo",
+    "writhe": "flowkit.topology",
+    "linking_number": "flowkit.topology",
+    "material_ribbon": "flowkit.topology",
+    "kinetic_helicity": "flowkit.topology",
 }
 
 
