@@ -15,6 +15,7 @@ test suite, runs for minutes). The test checks that few are skipped.
 
 from __future__ import annotations
 
+import json
 import os
 import re
 import subprocess
@@ -102,3 +103,40 @@ def test_readme_shell_commands_run(cmd, shell_dir):
     run = subprocess.run(["bash", "-c", f"set -o pipefail; {cmd}"], cwd=cwd, env=_env(shell_dir),
                          capture_output=True, text=True, timeout=300)
     assert run.returncode == 0, f"`{cmd}` failed ({run.returncode}):\n{run.stdout[-1500:]}\n{run.stderr[-3000:]}"
+
+
+def test_presets_table_names_the_domain_each_flow_reports():
+    import flowkit
+
+    text = README.read_text()
+    table = text[text.index("## Presets"):]
+    rows = [r for r in table.splitlines() if r.startswith("| `")]
+    assert len(rows) >= 8
+    for row in rows:
+        names_cell, _, domain_cell = [c.strip() for c in row.strip("|").split("|")][:3]
+        names = re.findall(r"`([^`]+)`", names_cell)
+        domains = re.findall(r"`([^`]+)`", domain_cell)
+        for k, name in enumerate(names):  # "cat-map, sfs-map" pair with "torus / cell"
+            assert flowkit.flow(name).domain == domains[min(k, len(domains) - 1)], row
+
+
+def test_cache_command_removes_nothing_without_clear(tmp_path, monkeypatch, capsys):
+    from flowkit.cli import main
+
+    monkeypatch.setenv("FLOWKIT_CACHE_DIR", str(tmp_path / "cache"))
+    assert main(["cache"]) == 0
+    out = capsys.readouterr().out
+    assert "removed" not in out and "--clear" in out
+    assert main(["cache", "--json"]) == 0
+    assert "removed" not in json.loads(capsys.readouterr().out)
+
+
+def test_python_reports_compile_seconds_apart_from_integration():
+    import flowkit
+
+    f = flowkit.custom_flow(["-y + c*z", "x", "-c*x"], params={"c": 0.25}, domain="ball", name="readme-rotor")
+    first = flowkit.poincare_section(f, [[0.3, 0.0, 0.1]], crossings=5)
+    again = flowkit.poincare_section(f, [[0.3, 0.0, 0.1]], crossings=5)
+    # the first call of a new family compiles (or loads from disk); the second finds it compiled
+    assert first.provenance["compile_seconds"] > 0 and again.provenance["compile_seconds"] == 0.0
+    assert first.provenance["seconds"] < first.provenance["compile_seconds"]
