@@ -465,3 +465,21 @@ def test_loop_explorer_time_slider_redraws_loop_and_histories():
     ex.flush()
     assert ex.wr_line.get_data()[0][-1] == pytest.approx(1.0, rel=1e-3)
     ex.close()
+
+
+def test_flux_tube_lines_link_the_axis_lk_plus_twist_times():
+    """Lines on a thin tube around the (2, 3) torus knot with the torus framing (Lk = -6, see the torus
+    test) and one extra turn link the axis and each other -6 + 1 = -5 times (exact: added twist adds
+    to the linking number)."""
+    from flowkit.topology.ribbons import flux_tube_lines
+
+    def normal(t):
+        t = 2 * np.pi * np.asarray(t)
+        return np.stack([np.cos(3 * t) * np.cos(2 * t), np.cos(3 * t) * np.sin(2 * t), np.sin(3 * t)], 1)
+
+    rb = T.ribbon(torus_knot(2, 3, 1.0, 0.3), normal, n=600)
+    assert T.ribbon_topology(rb, error=False).linking_integer == -6
+    a, b = flux_tube_lines(rb, 0.02, twist=1, lines=2)
+    assert T.linking_number(rb.points, a).integer == -5 and T.linking_number(a, b).integer == -5
+    with pytest.raises(FlowkitError, match="whole number"):
+        flux_tube_lines(rb, 0.02, twist=0.5)

@@ -220,6 +220,9 @@ def mode_field(result, phase: float | None = None) -> np.ndarray:
     mode = getattr(result, "mode", None)
     if mode is None:
         raise FlowkitError("this dynamo result kept no mode; run growth_rate(..., keep_mode=True)")
+    if getattr(result, "domain", "box") == "ball":
+        raise FlowkitError("ball (sphere dynamo) modes are not supported here yet: their helicity needs the "
+                           "potential-field exterior (relative helicity); use a box dynamo result")
     mode = np.asarray(mode)
     if mode.ndim != 5 or mode.shape[:2] != (2, 3):
         raise FlowkitError(f"need a full-box mode of shape (2, 3, N, N, N); got {mode.shape} (single-kz modes "

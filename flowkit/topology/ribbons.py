@@ -228,3 +228,33 @@ def ribbon_topology(rb, normals=None, *, n: int | None = None, error: bool = Tru
                           notes=notes, provenance={"ribbon": rb.description,
                                                    "method": "polygon twist with parallel transport at corners; "
                                                              "exact polygon Gauss integrals"})
+
+
+def flux_tube_lines(rb: Ribbon, radius: float, twist: int = 0, lines: int = 6) -> list[np.ndarray]:
+    """Field lines on a thin flux tube around a ribbon's curve, with ``twist`` extra turns.
+
+    Line j is x + radius (cos phi N + sin phi (T x N)) with phi = 2 pi j / lines + 2 pi twist s
+    (s the fraction of the way around), so every line closes. Each line links the tube's
+    axis (and every other line) Lk(ribbon) + twist times, as long as ``radius`` is small
+    against the curve's curvature radius and its distance to itself.
+
+    Returns
+    -------
+    list of (n, 3) arrays, one closed polygon per line.
+    """
+    from flowkit.validation import count, positive
+
+    radius = positive(radius, "radius")
+    lines = count(lines, "lines")
+    if isinstance(twist, bool) or not float(twist).is_integer():
+        raise FlowkitError(f"`twist` must be a whole number of turns (the lines must close); got {twist!r}")
+    P, N = rb.points, rb.normals
+    T = np.roll(P, -1, axis=0) - np.roll(P, 1, axis=0)
+    T /= np.linalg.norm(T, axis=1)[:, None]
+    Bn = np.cross(T, N)
+    s = np.arange(len(P)) / len(P)
+    out = []
+    for j in range(lines):
+        phi = 2 * np.pi * (j / lines + int(twist) * s)
+        out.append(P + radius * (np.cos(phi)[:, None] * N + np.sin(phi)[:, None] * Bn))
+    return out
