@@ -175,6 +175,22 @@ def _run_chunk(flow, pts, t0, t1, time, settings, threads, planar):
     return vals, res.outcome
 
 
+def _variational_chunks(flow, flat, idx, values, outcome, t0, t1, time, settings, threads, planar, chunk,
+                        progress, max_seconds) -> Budget:
+    """Fill ``values``/``outcome`` at ``idx`` chunk by chunk under a progress/time/Ctrl-C budget."""
+    with Budget(total=idx.size, desc=f"FTLE {flow.name}", unit="pt", progress=progress,
+                max_seconds=max_seconds) as budget:
+        for a in range(0, idx.size, chunk):
+            if budget.expired():
+                break
+            part = idx[a:a + chunk]
+            vals, codes = _run_chunk(flow, flat[part], t0, t1, time, settings, threads, planar)
+            values[part] = vals
+            outcome[part] = codes
+            budget.advance(part.size)
+    return budget
+
+
 def ftle_field(
     flow: Flow,
     plane: GridPlane,
@@ -188,6 +204,7 @@ def ftle_field(
     chunk: int = 8192,
     progress: bool | None = None,
     max_seconds: float | None = None,
+    method: str = "variational",
 ) -> FTLEField:
     """FTLE field of ``flow`` on a grid over ``plane``.
 
@@ -218,6 +235,11 @@ def ftle_field(
     max_seconds : float, optional
         Wall-clock budget, checked between chunks: the field is returned with the
         finished chunks, outcome -2 elsewhere, flagged ``partial``.
+    method : {"variational", "flowmap"}
+        "variational" (default): the deformation gradient from the variational
+        equations with the exact gradient. "flowmap": positions only, then centred
+        finite differences over one grid spacing (:mod:`flowkit.chaos.ftle_flowmap`);
+        cheaper, but ridges are smeared over a cell and depend on the resolution.
 
     Returns
     -------
@@ -228,6 +250,7 @@ def ftle_field(
     flow = require_flow(flow)
     time = check_time(time)
     one_of(direction, "direction", ("forward", "backward"))
+    one_of(method, "method", ("variational", "flowmap"))
     if not isinstance(plane, GridPlane):
         raise FlowkitError(f"`plane` must be a GridPlane (GridPlane.coordinate('z', 0.0, span)); got {type(plane).__name__}")
     t0 = finite(t0, "t0")
@@ -248,19 +271,20 @@ def ftle_field(
     idx = np.flatnonzero(inside)
     t1 = float(t0) + (time if direction == "forward" else -time)
     start = _time.perf_counter()
-    with Budget(total=idx.size, desc=f"FTLE {flow.name}", unit="pt", progress=progress,
-                max_seconds=max_seconds) as budget:
-        for a in range(0, idx.size, chunk):
-            if budget.expired():
-                break
-            part = idx[a:a + chunk]
-            vals, codes = _run_chunk(flow, flat[part], float(t0), t1, time, settings, threads, planar)
-            values[part] = vals
-            outcome[part] = codes
-            budget.advance(part.size)
+    if method == "flowmap":
+        from flowkit.chaos.ftle_flowmap import flowmap_field
+
+        vals2, codes2, budget = flowmap_field(flow, plane, s, r, pts, inside, float(t0), t1, time, settings,
+                                              threads, chunk, progress, max_seconds, NOT_RUN)
+        values[:] = vals2.ravel()
+        outcome[inside] = codes2.ravel()[inside]
+    else:
+        budget = _variational_chunks(flow, flat, idx, values, outcome, float(t0), t1, time, settings, threads,
+                                     planar, chunk, progress, max_seconds)
     notes = []
     if budget.partial:
-        notes.append(f"{budget.reason}; {int(np.sum(outcome == NOT_RUN))} grid points not computed (outcome -2)")
+        notes.append(f"{'interrupted' if budget.interrupted else 'time budget reached'}: "
+                     f"{int(np.sum(outcome == NOT_RUN))} grid points not computed (outcome -2); {budget.reason}")
         warnings.warn(f"FTLE field: {notes[0]}", FlowkitNotice, stacklevel=2)
     notes += outcome_notes(outcome[outcome >= 0])
     seconds = _time.perf_counter() - start
@@ -270,9 +294,11 @@ def ftle_field(
                       "(see field.outcome)", FlowkitNotice, stacklevel=2)
     provenance = flow.provenance()
     provenance["method"] = method_record(
-        settings, algorithm="variational equations with the exact gradient; FTLE = log(largest singular value "
-        "of the deformation gradient) / T" + ("; in-plane 2x2 block" if planar else ""),
-        resolution=list(check_resolution(resolution)), threads=threads)
+        settings, algorithm=("variational equations with the exact gradient" if method == "variational" else
+                             "flow map of positions, centred finite differences over one grid spacing")
+        + "; FTLE = log(largest singular value of the deformation gradient) / T"
+        + ("; in-plane 2x2 block" if planar else ""),
+        resolution=list(check_resolution(resolution)), threads=threads, ftle_method=method)
     M, N = pts.shape[:2]
     return FTLEField(values.reshape(M, N), s, r, pts, outcome.reshape(M, N), time, float(t0), direction,
                      plane.as_dict(), seconds, budget.partial, notes, provenance)
