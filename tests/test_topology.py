@@ -72,7 +72,7 @@ def test_linking_matches_gauss_quadrature_of_smooth_curves():
 
 def test_segment_distance_against_a_brute_force_grid():
     rng = np.random.default_rng(5)
-    for _ in range(20):
+    for _ in range(10):
         p = rng.normal(size=(4, 3))
         exact = K.segment_distance(p[0], p[1], p[2], p[3])
         grid = naive.segment_distance_grid(*p)
