@@ -89,6 +89,9 @@ def across_domain(flow: Flow, plane: Plane, n: int) -> np.ndarray:
 def random_in_domain(flow: Flow, n: int, seed: int | None = 0) -> np.ndarray:
     """``n`` points uniformly distributed in the flow's domain (unbounded: the box [-2, 2]^3)."""
     n = count(n, "n")
+    from flowkit.validation import memory
+
+    memory(n * 96.0, "n", per_unit=96.0, value=n)  # the seeds and the temporaries drawing them (~12 doubles)
     rng = np.random.default_rng(seed)
     if flow.domain == "ball":
         v = rng.normal(size=(n, 3))

@@ -165,18 +165,21 @@ def output_path(path, name: str = "path", formats: Iterable[str] = RESULT_FORMAT
     return p
 
 
-def memory(nbytes: float, name: str, *, per_unit: float | None = None, value=None) -> None:
+def memory(nbytes: float, name: str, *, per_unit: float | None = None, value=None, power: int = 1) -> None:
     """Refuse an allocation of about ``nbytes`` that will not fit in available memory.
 
     ``per_unit`` (bytes per unit of the argument ``name``) lets the message state
-    the largest value that fits. ``FLOWKIT_MAX_BYTES`` caps what flowkit allocates.
+    the largest value that fits; with ``power=2`` the memory grows as the square
+    of the value (an N x N grid, ``per_unit`` bytes per point) and the largest N is
+    stated. ``FLOWKIT_MAX_BYTES`` caps what flowkit allocates.
     """
     cap = available_memory()
     if nbytes <= cap:
         return
     fits = ""
     if per_unit:
-        fits = f"; the largest `{name}` that fits is about {int(cap // per_unit):,}"
+        largest = int((cap / per_unit) ** (1.0 / power))
+        fits = f"; the largest `{name}` that fits is about {largest:,}" + (" per side" if power == 2 else "")
     raise FlowkitError(f"`{name}`{'' if value is None else f' = {value!r}'} needs about {_human(nbytes)} "
                        f"of memory but {_human(cap)} is available{fits} (FLOWKIT_MAX_BYTES sets a cap)")
 

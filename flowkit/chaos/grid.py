@@ -138,6 +138,13 @@ def check_resolution(resolution) -> tuple[int, int]:
         raise FlowkitError(f"`resolution` must be two integers (N, M); got {resolution!r}") from None
     if not ok or n < 2 or m < 2:
         raise FlowkitError(f"`resolution` must be at least 2x2 grid points; got {resolution!r}")
+    from flowkit.validation import memory
+
+    # per grid point: position, start, 3x3 deformation state, field values and outcomes (~40 doubles)
+    memory(n * m * _GRID_POINT_BYTES, "resolution", per_unit=_GRID_POINT_BYTES, value=f"{n}x{m}", power=2)
     return n, m
+
+
+_GRID_POINT_BYTES = 320.0
 
 

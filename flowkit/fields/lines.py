@@ -155,6 +155,10 @@ def material_line(
         raise FlowkitError(f"`max_points` must be an integer >= 16; got {max_points!r}")
     if not (isinstance(initial_points, (int, np.integer)) and 2 <= initial_points <= max_points):
         raise FlowkitError(f"`initial_points` must be an integer in [2, max_points]; got {initial_points!r}")
+    from flowkit.validation import memory
+
+    # at the budget: positions, labels and the copies made while inserting points (~25 doubles a point)
+    memory(int(max_points) * 200.0, "max_points", per_unit=200.0, value=int(max_points))
     marks = _pass_times(system, T, interval)
     periods = system.periods if mapping else np.zeros(3)
 

@@ -194,6 +194,7 @@ def stretch(
             raise FlowkitError(f"`particles` must be a positive integer; got {particles!r}")
         if particles < 1:
             raise FlowkitError(f"`particles` must be at least 1; got {particles} (zero particles give no statistics)")
+        _check_memory(int(particles), samples, keep_series)
         X0 = default_seeds(system, int(particles), rng)
     else:
         X0 = check_points(system, seeds)
@@ -236,6 +237,16 @@ def stretch(
 
 _ALGORITHM = ("line elements by the variational equation with the exact gradient (maps: the exact Jacobian), "
               "renormalized every step; B = d rho/rho0 with ln(rho/rho0) = -int div u dt")
+
+
+def _check_memory(n: int, samples, keep_series: bool) -> None:
+    """Refuse particle counts x checkpoints that cannot fit, before any allocation."""
+    from flowkit.validation import memory
+
+    if isinstance(samples, (int, np.integer)) and not isinstance(samples, bool):
+        # per particle: its state, seeds and results (~40 doubles) plus moments (and the series) per checkpoint
+        per = 320.0 + 8.0 * (int(samples) + 1) * (2 + (1 if keep_series else 0))
+        memory(n * per, "particles", per_unit=per, value=f"{n} with {samples} checkpoints")
 
 
 def _initial_field(field, N, rng, planar) -> np.ndarray:

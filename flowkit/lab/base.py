@@ -340,6 +340,10 @@ class Explorer:
         """Write the paper figure (``"pdf"``, ``"png"``) or the raw result (``"npz"``); return the path."""
         if fmt not in ("pdf", "png", "npz"):
             raise FlowkitError(f"`fmt` must be 'pdf', 'png' or 'npz'; got {fmt!r}")
+        if path is not None:  # checked before any work: a bad path must not cost a finished result
+            from flowkit.validation import output_path
+
+            output_path(path, "path", (f".{fmt}",))
         if self.result is None:
             self.update()
         if self.result is None:
@@ -349,12 +353,15 @@ class Explorer:
             path = self.export_dir / f"{file_stem(self.kind, self.flow)}.{fmt}"
         path = Path(path)
         if fmt == "npz":
-            self.save_data(path)
+            path = Path(self.save_data(path) or path)
         else:
             import matplotlib as mpl
 
+            from flowkit.results.files import write_safely
+
             with mpl.rc_context(PAPER_STYLE):
-                self.paper_figure().savefig(path, dpi=300)
+                fig = self.paper_figure()
+                path = write_safely(path, lambda p: fig.savefig(p, format=fmt, dpi=300))
         self.say(f"wrote {path}")
         return path
 

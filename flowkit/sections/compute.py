@@ -15,6 +15,7 @@ from flowkit.integrate.batch import IntegratorSettings, check_seeds, thread_limi
 from flowkit.integrate.splitting import SplittingSettings, check_splittable
 from flowkit.sections.geometry import DIRECTIONS, Plane, Stroboscopic, lattice_spacing
 from flowkit.sections.result import Section
+from flowkit.validation import memory
 
 _METHOD_CODES = {"dop853": 0, "rk4": 1, "splitting": 2}
 #: memory for the crossing buffers of one kernel call (seeds are run in chunks beyond it)
@@ -121,6 +122,9 @@ def poincare_section(
     if isinstance(crossings, bool) or not isinstance(crossings, (int, np.integer)) or crossings < 1:
         raise FlowkitError(f"`crossings` must be a positive integer (the crossing budget per orbit); got {crossings!r}")
     crossings = int(crossings)
+    # the assembled section holds 3 coordinates, a time and a direction per crossing (5 doubles)
+    memory(X0.shape[0] * crossings * 40.0, "crossings", per_unit=X0.shape[0] * 40.0,
+           value=f"{crossings} for {X0.shape[0]} seeds")
     if max_steps is None:
         max_steps = max(100_000, 5_000 * crossings)
     settings = _settings(method, rtol, atol, max_step, max_steps, step, order)

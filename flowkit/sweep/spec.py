@@ -31,12 +31,13 @@ def parse_range(text: str) -> tuple[str, list[float]]:
             start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
             if not (math.isfinite(start) and math.isfinite(stop)):
                 raise ValueError
-            memory(count * 64.0, f"--vary {name} COUNT", per_unit=64.0, value=count)  # a float in a list
-            values = np.linspace(start, stop, count).tolist() if count > 0 else []
         else:
             values = [float(v) for v in rng.split(",") if v.strip()]
     except ValueError:
         raise FlowkitError(f"--vary {name}: {rng!r} is not START:STOP:COUNT or a comma-separated list") from None
+    if ":" in rng:
+        memory(count * 64.0, f"--vary {name} COUNT", per_unit=64.0, value=count)  # a float in a list
+        values = np.linspace(start, stop, count).tolist() if count > 0 else []
     if not values:
         raise FlowkitError(f"--vary {name}: the range is empty; give COUNT >= 1 or at least one value")
     return name, values

@@ -50,10 +50,12 @@ def _exact(flow, t: float):
     exprs = flow.family.exprs
     if exprs is None:
         return None
+    from flowkit.flows.grammar import as_sympy  # family expressions are sympy objects; never text
+
     x, y, z, ts = sp.symbols("x y z t", real=True)
-    by_name = {s.name: s for e in exprs for s in sp.sympify(e).free_symbols}
+    by_name = {s.name: s for e in exprs for s in as_sympy(e).free_symbols}
     X, Y, Z = by_name.get("x", x), by_name.get("y", y), by_name.get("z", z)
-    u = [sp.sympify(e) for e in exprs]
+    u = [as_sympy(e) for e in exprs]
     subs = {by_name[k]: sp.nsimplify(v) for k, v in flow.param_dict.items() if k in by_name}
     if "t" in by_name:
         subs[by_name["t"]] = sp.nsimplify(t)
