@@ -17,6 +17,13 @@ def add_flow_args(parser: argparse.ArgumentParser) -> None:
     )
 
 
+def add_max_seconds(parser: argparse.ArgumentParser) -> None:
+    """``--max-seconds S``: a wall-clock budget, checked between chunks (the result is then partial)."""
+    parser.add_argument("--max-seconds", type=float, default=None, metavar="S",
+                        help="wall-clock budget: stop between chunks after S seconds and report the finished "
+                             "part, flagged partial (a progress bar shows on stderr once a run passes 2 s)")
+
+
 def parse_params(items: list[str]) -> dict[str, float]:
     """Turn ``["a=1", "b=2.5"]`` into ``{"a": 1.0, "b": 2.5}`` with clear errors."""
     out = {}

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import time
 
-from flowkit.cli.common import add_flow_args, flow_from_args, parse_vector
+from flowkit.cli.common import add_flow_args, add_max_seconds, flow_from_args, parse_vector
 from flowkit.errors import FlowkitError
 
 
@@ -28,6 +28,10 @@ def add(sub):
     p.add_argument("--method", choices=["dop853", "rk4"], default="dop853", help="integrator (default dop853)")
     p.add_argument("--step", type=float, help="RK4 step (with --method rk4)")
     p.add_argument("--rtol", type=float, default=1e-9, help="DOP853 relative tolerance (default 1e-9)")
+    p.add_argument("--gradient", choices=("variational", "flowmap"), default="variational",
+                   help="deformation gradient from the variational equations (default) or from the flow map "
+                        "by centred finite differences on the grid (cheaper; smears ridges)")
+    add_max_seconds(p)
     p.add_argument("--threads", type=int, help="threads (default: all cores)")
     p.add_argument("--out", metavar="FILE", help="save the field (.npz or .nc)")
     p.add_argument("--plot", metavar="PNG", help="draw the field with a colorbar into this image")
@@ -66,7 +70,8 @@ def run(args) -> dict:
         pass  # the real call below reports the problem
     compile_s = time.perf_counter() - t0
     field = ftle_field(flow, plane, resolution, args.time, t0=args.t0, settings=settings, threads=args.threads,
-                       direction="backward" if args.backward else "forward")
+                       direction="backward" if args.backward else "forward", method=args.gradient,
+                       max_seconds=args.max_seconds)
     s = field.summary()
     res = {
         "flow": flow.name, "parameters": flow.param_dict, "resolution": list(resolution),

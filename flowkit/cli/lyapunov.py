@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import time
 
-from flowkit.cli.common import add_flow_args, flow_from_args, parse_vector
+from flowkit.cli.common import add_flow_args, add_max_seconds, flow_from_args, parse_vector
 
 
 def add(sub):
@@ -16,6 +16,7 @@ def add(sub):
     p.add_argument("--t0", type=float, default=0.0, help="start time (time-periodic flows; default 0)")
     p.add_argument("--blocks", type=int, default=20, help="blocks for the standard error (default 20)")
     p.add_argument("--rtol", type=float, default=1e-10, help="DOP853 relative tolerance (default 1e-10)")
+    add_max_seconds(p)
     p.add_argument("--atol", type=float, default=1e-12, help="DOP853 absolute tolerance (default 1e-12)")
     p.add_argument("--out", metavar="FILE", help="save the result (.npz or .json, with the running estimate)")
     return p
@@ -43,7 +44,7 @@ def run(args) -> dict:
     settings = IntegratorSettings(rtol=args.rtol, atol=args.atol)
     compile_s = warm_tangent(flow)
     spec = lyapunov_spectrum(flow, point, args.time, transient=args.transient, t0=args.t0, blocks=args.blocks,
-                             settings=settings)
+                             settings=settings, max_seconds=args.max_seconds)
     out = spec.summary()
     out.update(flow=flow.name, parameters=flow.param_dict, compile_seconds=compile_s,
                gradient=flow.family.gradient_method)

@@ -13,7 +13,7 @@ def add(sub):
         description="Growth rates of a frozen-in field carried by FLOW (a flow or a map such as cat-map). "
         "Rates are per unit time (per iteration for maps).",
     )
-    from flowkit.cli.common import add_flow_args
+    from flowkit.cli.common import add_flow_args, add_max_seconds
 
     add_flow_args(p)
     p.add_argument("--particles", type=int, default=1000, help="particles carrying field vectors (default 1000)")
@@ -29,6 +29,7 @@ def add(sub):
     p.add_argument("--flux-samples", type=int, default=2000,
                    help="Monte Carlo points on the flux surface (default 2000; 0 skips the flux)")
     p.add_argument("--rtol", type=float, default=1e-9, help="DOP853 relative tolerance (default 1e-9)")
+    add_max_seconds(p)
     p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
     return p
 
@@ -73,7 +74,7 @@ def run(args) -> dict:
     t0 = time.perf_counter()
     transient = int(args.transient) if mapping and float(args.transient).is_integer() else args.transient
     res = stretch(system, args.particles, duration, p=_orders(args.orders), samples=args.samples,
-                  transient=transient, settings=settings, seed=args.seed)
+                  transient=transient, settings=settings, seed=args.seed, max_seconds=args.max_seconds)
     s = res.summary()
     out = {
         "flow": system.name, "parameters": system.param_dict, "units": s["units"], "time": duration,
@@ -101,7 +102,8 @@ def _line(system, duration, args, settings):
         return _skipped("skipped (--line-points 0)"), None
     if getattr(system, "kind", "") == "system":
         return _skipped("not computed for ODE systems (no material lines); use a flow or a map"), None
-    s = material_line(system, duration, max_points=max(args.line_points, 16), settings=settings).summary()
+    s = material_line(system, duration, max_points=max(args.line_points, 16), settings=settings,
+                      max_seconds=args.max_seconds).summary()
     info = {k: s[k] for k in ("final_time", "final_points", "final_length", "stopped", "memory_bytes",
                               "cut_segments", "notes")}
     return _rate(s["line_stretching"]), info
@@ -114,7 +116,8 @@ def _flux(system, duration, args, settings):
         return _skipped("skipped (--flux-samples 0)"), None
     if getattr(system, "kind", "") == "system" or getattr(system, "domain", "") == "unbounded":
         return _skipped("not computed: needs a flow in a bounded or periodic domain, or a map"), None
-    s = flux_growth(system, duration, samples=max(args.flux_samples, 2), settings=settings, seed=args.seed).summary()
+    s = flux_growth(system, duration, samples=max(args.flux_samples, 2), settings=settings, seed=args.seed,
+                    max_seconds=args.max_seconds).summary()
     info = {"unsigned_rate": _rate(s["unsigned_rate"]),
             **{k: s[k] for k in ("final_ratio", "final_ratio_stderr", "surface", "field", "notes")}}
     return _rate(s["flux_rate"]), info
