@@ -248,12 +248,12 @@ def test_memory_estimates_name_the_argument_and_what_fits(monkeypatch):
 
 
 # -- the command line ------------------------------------------------------------------------------------------
-def _cli(*args, cwd) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "flowkit", *args], cwd=cwd, capture_output=True, text=True,
-                          timeout=120, env={**os.environ, "PYTHONPATH": str(ROOT)})
+def _start(args, cwd) -> subprocess.Popen:
+    return subprocess.Popen([sys.executable, "-m", "flowkit", *args], cwd=cwd, stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, text=True, env={**os.environ, "PYTHONPATH": str(ROOT)})
 
 
-@pytest.mark.parametrize("args, words", [
+_CLI_CASES = [
     (["sectoin", "stf"], ["invalid choice: 'sectoin'", "did you mean 'section'?"]),
     (["section", "stf", "--crosings", "5"], ["did you mean --crossings (not --crosings)?"]),
     (["section", "stf", "--crossings", "5", "--methd", "rk4"], ["did you mean --method (not --methd)?"]),
@@ -270,15 +270,32 @@ def _cli(*args, cwd) -> subprocess.CompletedProcess:
     (["section", "stf", "--crossings", "2", "--seed-file", "bad.txt"], ["seed file 'bad.txt' line 2", "UTF-8"]),
     (["section", "stf", "--crossings", "2", "--seeds", "2000000000", "--random"],
      ["`n` = 2000000000", "the largest `n` that fits"]),
-])
-def test_cli_refusals_are_clean(tmp_path, args, words):
-    (tmp_path / "bad.txt").write_bytes(b"0 0 0\n\xff 1 2\n")
-    res = _cli(*args, cwd=tmp_path)
-    assert res.returncode == 2, res.stderr
-    assert "Traceback" not in res.stderr and "Traceback" not in res.stdout
+]
+
+
+@pytest.fixture(scope="module")
+def cli_runs(tmp_path_factory):
+    """Every command-line case as a real subprocess, all started at once (each is ~1 s of start-up)."""
+    runs = {}
+    for i, (args, _) in enumerate(_CLI_CASES):
+        folder = tmp_path_factory.mktemp(f"cli{i}")
+        (folder / "bad.txt").write_bytes(b"0 0 0\n\xff 1 2\n")
+        runs[tuple(args)] = (_start(args, folder), folder)
+    out = {}
+    for key, (proc, folder) in runs.items():
+        stdout, stderr = proc.communicate(timeout=300)
+        out[key] = (proc.returncode, stdout, stderr, folder)
+    return out
+
+
+@pytest.mark.parametrize("args, words", _CLI_CASES)
+def test_cli_refusals_are_clean(cli_runs, args, words):
+    code, out, err, folder = cli_runs[tuple(args)]
+    assert code == 2, err
+    assert "Traceback" not in err and "Traceback" not in out
     for w in words:
-        assert w in res.stderr, (w, res.stderr)
-    assert not (tmp_path / "missing").exists() and not list(tmp_path.glob("*.npz"))
+        assert w in err, (w, err)
+    assert not (folder / "missing").exists() and not list(folder.glob("*.npz"))
 
 
 # -- the source holds no door from text to code ---------------------------------------------------------------------

@@ -394,6 +394,7 @@ def _parse_piece(parser: _Parser, piece: str, start: int):
     try:
         with warnings.catch_warnings():  # e.g. "invalid decimal literal": the syntax error says it better
             warnings.simplefilter("ignore", SyntaxWarning)
+            warnings.simplefilter("ignore", DeprecationWarning)
             tree = ast.parse(body, mode="eval")
     except SyntaxError as exc:
         col = max(0, min(shift + (exc.offset or 1) - 1, len(parser.text) - 1))
