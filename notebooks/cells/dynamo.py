@@ -72,4 +72,96 @@ for rm, colour in [(0.4, "C0"), (2.0, "C1"), (8.0, "C2")]:
 ax.set(title="Roberts cell: growth rate against kz", ylim=(-0.6, 0.4))
 ax.legend(fontsize=7)
 plt.show()"""),
+    md("""
+# Is the stirred droplet a dynamo? The sphere with an insulating exterior
+
+The same question for a flow confined in a sphere: a liquid-metal droplet
+surrounded by an insulator (no currents outside, the field matched to a decaying
+potential field at r = 1). Time is in magnetic diffusion times, Rm multiplies
+the flow as defined. The solver (`flowkit.dynamo.sphere`, chosen automatically
+for a flow with `domain="ball"`) expands B = ∇×(T x) + ∇×∇×(S x) in spherical
+harmonics up to degree L and N radial nodes, and every number comes with a
+check at a smaller (L, N).
+
+## First, the published benchmark flows
+
+Proc. R. Soc. Lond. A 425 (1989) 407-429 (onsets cited from memory): "t2s2"
+(ε = 0.14) starts a steady m = 1 dynamo near Rm = 54, "t1s1" (ε = 0.17) an
+oscillating m = 1 dynamo near Rm = 155. The README gives the full (L, N) tables.
+"""),
+    code("""
+from flowkit.dynamo import benchmark_flow
+
+bench = benchmark_flow("t2s2")
+res_b = size((16, 16), (10, 10))
+curve_b = sweep_rm(bench, size([45, 50, 54, 58, 65], [45, 65]), resolution=res_b, m=1, progress=False)
+onset_b = critical_rm(bench, [45, 65], resolution=res_b, m=1, xtol=size(1e-3, 1e-2), progress=False)
+print(onset_b)
+assert 50 < onset_b.rm_critical < 58, "t2s2 onset near the published Rm = 54"
+fig, ax = plt.subplots(figsize=(5, 3.4), layout="constrained")
+plot_growth_curve(ax, curve_b, critical=onset_b)
+ax.set(title="t2s2 benchmark flow (m = 1)")
+ax.legend()
+plt.show()"""),
+    md("""
+## The stirred droplet: stf at two rotations and a levitated droplet
+
+`stf` (stretch-twist-fold Stokes flow, rotation about y couples every order m)
+and a Lamb flow of our own scenario: a droplet levitated in a coil, with a
+meridional circulation (Hill's-vortex type, pressure harmonic P1_0) and a
+differential swirl (toroidal harmonic T2_0). **These critical Rm values are new
+results, not published anywhere**; each comes with its resolution table.
+"""),
+    code("""
+droplets = {
+    "stf, rotation 0.1": flowkit.flow("stf", rotation=0.1),
+    "stf, rotation 0.3": flowkit.flow("stf", rotation=0.3),
+    "levitated droplet": flowkit.lamb_flow({"P1_0": -10.0, "T2_0": 3.0}, name="levitated"),
+}
+res_d = size((10, 10), (6, 7))
+rms_d = size([2, 5, 10, 20, 40], [5, 20])
+curves = {name: sweep_rm(f, rms_d, resolution=res_d, check_resolution=size((8, 8), (4, 6)), progress=False)
+          for name, f in droplets.items()}
+fig, ax = plt.subplots(figsize=(5.4, 3.6), layout="constrained")
+for (name, c), colour in zip(curves.items(), ("C0", "C1", "C2")):
+    plot_growth_curve(ax, c, color=colour, label=name)
+    print(name, "L, N =", res_d, [(float(r), round(float(g), 4), round(float(e), 4))
+                                  for r, g, e in zip(c.rm, c.growth_rate, c.error_estimate)])
+ax.set(xscale="log", title="growth rate of the leading mode in the insulating sphere")
+ax.legend(fontsize=7)
+plt.show()"""),
+    md("""
+## The mode's structure
+
+The leading mode of stf at rotation 0.3 at the largest Rm of the scan:
+|B| in the meridional plane y = 0 and the equatorial plane z = 0, with the
+in-plane field as stream lines.
+"""),
+    code("""
+lead = growth_rate(droplets["stf, rotation 0.3"], rms_d[-1], resolution=res_d, check_resolution=None)
+print(lead)
+fig, axes = plt.subplots(1, 2, figsize=(8, 3.8), layout="constrained")
+for ax, plane in zip(axes, ("meridional", "equatorial")):
+    plot_mode_slice(ax, lead, plane=plane, resolution=size(64, 32))
+plt.show()"""),
+    md("""
+## Beside it: the perfect-conductor (ideal) estimates of the same flows
+
+Without diffusion a field carried by a chaotic flow grows at least as fast as
+line elements stretch. For each droplet: the largest Lyapunov exponent of one
+orbit, the growth rates L(1), L(2) of field-vector moments, and the growth rate
+of the net flux through the equatorial disc (flux cancellation makes it smaller).
+Compare with the diffusive growth rates above (per unit Rm, since time there is
+in diffusion times).
+"""),
+    code("""
+for name, f in droplets.items():
+    spec = flowkit.lyapunov_spectrum(f, [0.3, 0.2, 0.1], size(200.0, 20.0), intervals=size(1000, 100), blocks=5,
+                                    progress=False)
+    st = flowkit.stretch(f, size(1000, 100), size(20.0, 5.0), p=(1.0, 2.0), samples=size(100, 20), progress=False)
+    fl = flowkit.flux_growth(f, size(10.0, 3.0), samples=size(4000, 300), progress=False)
+    print(name)
+    print("  ", spec)
+    print("  ", st)
+    print("  ", fl)"""),
 ]

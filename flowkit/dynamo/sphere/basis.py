@@ -44,6 +44,11 @@ def chebyshev_diff(x: np.ndarray) -> np.ndarray:
     return d
 
 
+def radial(mat: np.ndarray, f: np.ndarray) -> np.ndarray:
+    """Apply per-degree radial matrices ``mat[l]`` to ``f[..., m, l, :]`` (a broadcast BLAS product)."""
+    return np.matmul(mat, f[..., None])[..., 0]
+
+
 class RadialBasis:
     """Parity-folded Chebyshev collocation on ``N`` nodes in ``(0, 1]`` (``r[0] = 1``).
 

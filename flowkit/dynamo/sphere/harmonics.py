@@ -121,9 +121,12 @@ class SphereGrid:
 
     def synth_vector(self, br, bs, bt):
         """Spherical components ``(B_r, B_theta, B_phi)`` of ``sum br Y r-hat + bs Psi + bt Phi``."""
-        pr = np.einsum("...mlr,mlt->...mrt", br, self.P)
-        th = np.einsum("...mlr,mlt->...mrt", bs, self.dP) - 1j * np.einsum("...mlr,mlt->...mrt", bt, self.Q)
-        ph = 1j * np.einsum("...mlr,mlt->...mrt", bs, self.Q) + np.einsum("...mlr,mlt->...mrt", bt, self.dP)
+        def syn(c, table):  # sum over l per order: a batched matrix product (BLAS), (..., M, R, n_theta)
+            return np.matmul(np.swapaxes(c, -1, -2), table)
+
+        pr = syn(br, self.P)
+        th = syn(bs, self.dP) - 1j * syn(bt, self.Q)
+        ph = 1j * syn(bs, self.Q) + syn(bt, self.dP)
         return self._to_phi(pr), self._to_phi(th), self._to_phi(ph)
 
     def analyse_vector(self, er, eth, eph):
@@ -132,9 +135,12 @@ class SphereGrid:
         fr, fth, fph = self._from_phi(er) * w, self._from_phi(eth) * w, self._from_phi(eph) * w
         ls = np.arange(self.lmax + 1)
         norm = np.where(ls > 0, 1.0 / np.maximum(ls * (ls + 1), 1), 0.0)[:, None]
-        cr = np.einsum("...mrt,mlt->...mlr", fr, self.P)
-        cs = (np.einsum("...mrt,mlt->...mlr", fth, self.dP) - 1j * np.einsum("...mrt,mlt->...mlr", fph, self.Q)) * norm
-        ct = (np.einsum("...mrt,mlt->...mlr", fph, self.dP) + 1j * np.einsum("...mrt,mlt->...mlr", fth, self.Q)) * norm
+        def ana(f, table):  # projection on each degree per order: (..., M, L+1, R)
+            return np.swapaxes(np.matmul(f, np.swapaxes(table, -1, -2)), -1, -2)
+
+        cr = ana(fr, self.P)
+        cs = (ana(fth, self.dP) - 1j * ana(fph, self.Q)) * norm
+        ct = (ana(fph, self.dP) + 1j * ana(fth, self.Q)) * norm
         return cr, cs, ct
 
     def points(self, r: np.ndarray) -> np.ndarray:

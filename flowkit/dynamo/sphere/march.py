@@ -16,6 +16,7 @@ import math
 import numpy as np
 
 from flowkit.dynamo.fit import fit_growth
+from flowkit.dynamo.sphere.basis import radial
 
 MARCH_DEFAULTS = {"t_min": 1.0, "t_max": 12.0, "chunk": 0.5, "cfl": 1.5, "channels": 8, "agree": 1e-4,
                   "seed": 0, "sample_dt": 0.01}
@@ -40,8 +41,7 @@ class Stepper:
     @staticmethod
     def _diffuse(prop, T, S):
         es, et = prop
-        rad = lambda mat, f: np.einsum("lij,...mlj->...mli", mat, f)  # noqa: E731
-        return rad(et, T), rad(es, S)
+        return radial(et, T), radial(es, S)
 
     def step(self, T, S, t):
         op, h = self.op, self.h

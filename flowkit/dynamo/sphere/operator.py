@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from flowkit.dynamo.sphere.basis import RadialBasis
+from flowkit.dynamo.sphere.basis import RadialBasis, radial
 from flowkit.dynamo.sphere.flowcheck import check_ball_flow, check_facts, probe_flow
 from flowkit.dynamo.sphere.harmonics import SphereGrid, grid_sizes
 from flowkit.validation import memory, positive, resolution as check_count
@@ -143,8 +143,7 @@ class BallOperator:
     # -- the operator ---------------------------------------------------------------------------
     def field_coefficients(self, T, S):
         """``(b_r, b_s, b_t)`` at all radial nodes, ``(..., M, L+1, N)``."""
-        rad = lambda mat, f: np.einsum("lij,...mlj->...mli", mat, f)  # noqa: E731
-        return rad(self._br, S), rad(self._bs, S), rad(self._bt, T)
+        return radial(self._br, S), radial(self._bs, S), radial(self._bt, T)
 
     def induction(self, T, S, t: float = 0.0):
         """``(dT/dt, dS/dt)`` of the induction term ``Rm curl(u x B)`` alone (arrays as :meth:`zeros`)."""
@@ -154,16 +153,14 @@ class BallOperator:
         Br, Bt, Bp = self.grid.synth_vector(br, bs, bt)
         ur, ut, up = self.u
         er, es, et = self.grid.analyse_vector(ut * Bp - up * Bt, up * Br - ur * Bp, ur * Bt - ut * Br)
-        rad = lambda mat, f: np.einsum("lij,...mlj->...mli", mat, f)  # noqa: E731
-        dT = rad(self._ar, er) + rad(self._as, es)
+        dT = radial(self._ar, er) + radial(self._as, es)
         dS = -et[..., 1:]
         mask = self.active[:, :, None]
         return dT * mask, dS * mask
 
     def diffusion(self, T, S):
         b = self.basis
-        rad = lambda mat, f: np.einsum("lij,...mlj->...mli", mat, f)  # noqa: E731
-        return rad(b.diffusion_t, T), rad(b.diffusion_s, S)
+        return radial(b.diffusion_t, T), radial(b.diffusion_s, S)
 
     def apply(self, x: np.ndarray, t: float = 0.0) -> np.ndarray:
         """The whole operator on packed vectors ``(..., dof)``."""
