@@ -71,24 +71,35 @@ def test_fast_decay_is_stiff_with_tangent_vectors(family):
     assert "ended early (stiff)" in spec.reason and "Radau" in spec.reason
 
 
-@pytest.mark.parametrize("name, seeds, rtol", [
-    ("stf", [[0.1, 0.0, 0.3], [0.5, 0.2, -0.1], [-0.3, 0.4, 0.2]], 1e-10),
-    ("stf", [[0.1, 0.0, 0.3], [0.5, 0.2, -0.1], [-0.3, 0.4, 0.2]], 1e-5),
-    ("abc", [[0.1, 0.2, 0.3], [3.0, 1.0, 5.0], [1.0, 4.0, 2.0]], 1e-5),
-    ("lorenz", [[1.0, 1.0, 20.0], [-5.0, 3.0, 30.0], [8.0, -2.0, 10.0]], 1e-5),
+@pytest.mark.parametrize("name, seeds, rtol, k, T", [
+    ("stf", [[0.1, 0.0, 0.3], [0.5, 0.2, -0.1], [-0.3, 0.4, 0.2]], 1e-10, 1, 4000.0),
+    ("stf", [[0.1, 0.0, 0.3], [0.5, 0.2, -0.1], [-0.3, 0.4, 0.2]], 1e-5, 1, 20000.0),
+    ("abc", [[0.1, 0.2, 0.3], [3.0, 1.0, 5.0], [1.0, 4.0, 2.0]], 1e-5, 0, 50000.0),
+    ("lorenz", [[1.0, 1.0, 20.0], [-5.0, 3.0, 30.0], [8.0, -2.0, 10.0]], 1e-5, 0, 4000.0),
 ])
-def test_no_false_alarm_on_chaotic_flows(name, seeds, rtol):
+def test_no_false_alarm_on_chaotic_flows(name, seeds, rtol, k, T):
     # non-stiff chaotic flows: the step is set by accuracy, h*|lambda| stays small, and the
     # test must never fire over many thousands of tests. Loose tolerances (large steps) are
-    # the hard case; position plus one tangent vector exercises the 6-component step.
+    # the hard case. k = 1 adds one (unrenormalized) tangent vector: the 6-component step,
+    # on stf whose slow stretching keeps it finite over the run.
     f = flowkit.flow(name)
-    Y = np.zeros((len(seeds), 6))
+    Y = np.zeros((len(seeds), 3 + 3 * k))
     Y[:, :3] = seeds
-    Y[:, 3] = 1.0
-    T = {"stf": 4000.0, "abc": 4000.0, "lorenz": 400.0}[name]
+    if k:
+        Y[:, 3] = 1.0
     res = integrate_states(f, Y, 0.0, T, IntegratorSettings(rtol=rtol, atol=1e-3 * rtol))
     assert np.all(res.outcome == Outcome.FINISHED), res.outcomes
     assert res.steps.min() > 20 * STIFF_EVERY      # long enough for many tests
+
+
+@pytest.mark.parametrize("name, point", [("abc", [0.1, 0.2, 0.3]), ("lorenz", [1.0, 1.0, 20.0])])
+def test_no_false_alarm_with_renormalized_tangent_vectors(name, point):
+    # the scale-separation test of tangent runs must not fire on chaotic flows either
+    spec = flowkit.lyapunov_spectrum(flowkit.flow(name), point, time=20000.0 if name == "abc" else 2000.0,
+                                     transient=0.0, intervals=40, blocks=4,
+                                     settings=IntegratorSettings(rtol=1e-6, atol=1e-9))
+    assert spec.outcome == "finished", spec.reason
+    assert spec.steps > 20 * STIFF_EVERY
 
 
 def test_advice_names_the_remedies():
