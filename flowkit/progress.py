@@ -48,7 +48,8 @@ import math
 import os
 import sys
 import time
-from typing import Iterable, Iterator, TypeVar
+from collections.abc import Iterable, Iterator
+from typing import TypeVar
 
 from flowkit.errors import FlowkitError
 
@@ -129,7 +130,7 @@ class Budget:
         self._start = time.perf_counter()
 
     # -- context manager -------------------------------------------------------------------
-    def __enter__(self) -> "Budget":
+    def __enter__(self) -> Budget:
         self._start = time.perf_counter()
         if self.show:
             from tqdm.auto import tqdm

@@ -24,7 +24,7 @@ import numpy as np
 
 from flowkit.integrate.tableau import (
     DOP_A, DOP_B, DOP_C, DOP_D, DOP_E3, DOP_E5, RK4_B, RK4_C, STIFF_ACTIVE, STIFF_BOUND, STIFF_CLEAR, STIFF_D,
-    STIFF_EVERY, STIFF_RUN, STIFF_SEPARATION, W_F, W_K, W_STIFF, W_YNEW, W_YOLD, W_YTMP,
+    STIFF_EVERY, STIFF_RUN, STIFF_SEPARATION, W_F, W_STIFF, W_YNEW, W_YOLD, W_YTMP,
 )
 from flowkit.kernels._stub import CACHE, gradient, njit, velocity  # flowkit:stub
 
