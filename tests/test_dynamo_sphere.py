@@ -165,3 +165,16 @@ def test_sweep_and_critical_rm_for_a_ball_flow(t2s2):
     crit = critical_rm(t2s2, [45.0, 65.0], resolution=(8, 8), progress=False, xtol=1e-2, m=1,
                        check_resolution=(6, 6))
     assert 45.0 < crit.rm_critical < 65.0 and crit.uncertainty > 0
+
+
+def test_dynamo_explorer_shows_a_ball_mode_in_the_meridional_disk(t2s2):
+    # the explorer's full result is the API's number at (L, N) = (N, N); the image is the y = 0 disk
+    from flowkit.lab import DynamoExplorer
+
+    ex = DynamoExplorer(t2s2, rm=60.0, resolution=8, preview_resolution=8)
+    ex.update()
+    assert ex.flush() or ex.showing == "full"
+    api = growth_rate(t2s2, 60.0, (8, 8), check_resolution=None)
+    assert ex.result.domain == "ball" and ex.result.growth_rate == pytest.approx(api.growth_rate, rel=1e-10)
+    assert tuple(ex.image.get_extent()) == (-1, 1, -1, 1) and ex.image.get_array().max() > 0
+    ex.close()

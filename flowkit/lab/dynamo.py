@@ -29,12 +29,13 @@ RESOLUTIONS = (8, 12, 16, 24, 32, 48)
 
 
 class DynamoExplorer(Explorer):
-    """Growth rate and leading mode of the kinematic dynamo in a periodic flow.
+    """Growth rate and leading mode of the kinematic dynamo in a periodic flow or a ball flow.
 
     Parameters
     ----------
     flow : str or Flow
-        Periodic preset (``abc``, ``roberts``, ``circular``) or your own periodic flow.
+        Periodic preset (``abc``, ``roberts``, ``circular``) or your own periodic flow; or a
+        ball flow (insulating sphere: the mode's meridional slice, ``(L, N) = (N, N)`` up to 24).
     params : dict, optional
         Starting parameter values.
     rm : float
@@ -87,7 +88,8 @@ class DynamoExplorer(Explorer):
 
     def _flow_changed(self) -> None:
         self.result = None
-        fits = self._base.name in Z_INDEPENDENT or self._base.name not in DYNAMO_PRESETS
+        fits = (self._base.name in Z_INDEPENDENT or self._base.name not in DYNAMO_PRESETS) and \
+            self._base.domain != "ball"
         self.kz_toggle.disabled = not fits
         if not fits:
             self.kz_toggle.value = False
@@ -105,12 +107,17 @@ class DynamoExplorer(Explorer):
     def _warm(self, flow: Flow) -> None:
         from flowkit.dynamo import growth_rate
 
+        if flow.domain == "ball":  # the sphere solver compiles nothing of its own: warm the flow's kernels
+            flow.family.warm()
+            return
         growth_rate(flow, 1.0, 8, check_resolution=None, keep_mode=False)
 
     def _compute(self, flow: Flow, preview: bool):
         from flowkit.dynamo import growth_rate
 
         n = self.preview_resolution if preview else self.resolution_picker.value
+        if flow.domain == "ball":  # insulating sphere: (L, N) = (n, n), capped where a solve stays interactive
+            n = (min(n, 24), min(n, 24))
         res = growth_rate(flow, self.rm_slider.value, n, self.method_picker.value,
                           check_resolution=None if preview else "auto", kz=self.kz)
         if not preview and math.isfinite(res.growth_rate):
@@ -148,7 +155,17 @@ class DynamoExplorer(Explorer):
             artist.remove()
         self._stream_artists = []
         if res.mode is not None:
-            h, v, bh, bv, mag, _ = mode_slice(res, "z", 0.0)
+            if getattr(res, "domain", "box") == "ball":  # the meridional disk y = 0 of the sphere
+                from flowkit.dynamo.sphere.mode import ball_slice
+
+                h, v, bh, bv, mag, _ = ball_slice(res, "meridional", resolution=48)
+                bh, bv, mag = np.nan_to_num(bh), np.nan_to_num(bv), np.nan_to_num(mag)
+                self.image.set_extent((-1, 1, -1, 1))
+                self.mode_ax.set(xlim=(-1, 1), ylim=(-1, 1), xlabel="x", ylabel="z")
+            else:
+                h, v, bh, bv, mag, _ = mode_slice(res, "z", 0.0)
+                self.image.set_extent((0, 2 * np.pi, 0, 2 * np.pi))
+                self.mode_ax.set(xlim=(0, 2 * np.pi), ylim=(0, 2 * np.pi), xlabel="x", ylabel="y")
             self.image.set_data(mag)
             self.image.set_clim(0.0, max(float(mag.max()), 1e-12))
             lines_before, patches_before = set(self.mode_ax.collections), set(self.mode_ax.patches)
@@ -158,7 +175,8 @@ class DynamoExplorer(Explorer):
         else:
             self.image.set_data(np.zeros((2, 2)))
         kz = "" if res.kz is None else f", kz = {res.kz:g}"
-        self.mode_ax.set_title(f"leading mode at z = 0, N = {res.resolution}{kz}"
+        where = "y = 0" if getattr(res, "domain", "box") == "ball" else "z = 0"
+        self.mode_ax.set_title(f"leading mode at {where}, N = {res.resolution}{kz}"
                                + ("  (preview)" if preview else ""), fontsize=9)
         rms, rates = self.curve()
         self.curve_line.set_data(rms, rates)
