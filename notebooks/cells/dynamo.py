@@ -109,8 +109,21 @@ plt.show()"""),
 `stf` (stretch-twist-fold Stokes flow, rotation about y couples every order m)
 and a Lamb flow of our own scenario: a droplet levitated in a coil, with a
 meridional circulation (Hill's-vortex type, pressure harmonic P1_0) and a
-differential swirl (toroidal harmonic T2_0). **These critical Rm values are new
-results, not published anywhere**; each comes with its resolution table.
+differential swirl (toroidal harmonic T2_0). **These are new results, not
+published anywhere.** Full runs (all orders coupled for stf) find **no onset below
+Rm = 80** for stf at rotation 0.1 or 0.3, and none below Rm = 200 for the levitated
+droplet. Resolution table of the stf growth rate, (L, N) = (8, 8) / (10, 10) / (12, 12):
+
+| Rm | rotation 0.1 | rotation 0.3 |
+|---|---|---|
+| 10 | −16.891 / −16.891 / – | −16.638 / −16.638 / – |
+| 20 | −17.559 / −17.497 / – | −16.734 / −16.705 / – |
+| 40 | −17.746 / −17.503 / −17.527 | −15.090 / −15.009 / −14.998 |
+| 80 | – / −16.504 / −16.602 | – / −9.774 / −9.419 |
+
+At rotation 0.3 the rate climbs steeply between Rm = 40 and 80: an onset above 80
+is possible but needs (L, N) beyond (12, 12). The cell below redoes a small version
+of the scan (quick sizes under FLOWKIT_QUICK=1).
 """),
     code("""
 droplets = {
