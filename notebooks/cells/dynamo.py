@@ -110,9 +110,10 @@ plt.show()"""),
 and a Lamb flow of our own scenario: a droplet levitated in a coil, with a
 meridional circulation (Hill's-vortex type, pressure harmonic P1_0) and a
 differential swirl (toroidal harmonic T2_0). **These are new results, not
-published anywhere.** Full runs (all orders coupled for stf) find **no onset below
-Rm = 80** for stf at rotation 0.1 or 0.3, and none below Rm = 200 for the levitated
-droplet. Resolution table of the stf growth rate, (L, N) = (8, 8) / (10, 10) / (12, 12):
+published anywhere.** Full runs (all orders coupled for stf) find **a dynamo for stf at
+rotation 0.3 with onset between Rm = 120 and 160** (≈ 136 at (12, 12), ≈ 151 at
+(10, 10): not converged), none below Rm = 160 at rotation 0.1, and none below
+Rm = 200 for the levitated droplet. Resolution table of the stf growth rate, (L, N) = (8, 8) / (10, 10) / (12, 12):
 
 | Rm | rotation 0.1 | rotation 0.3 |
 |---|---|---|
@@ -120,9 +121,10 @@ droplet. Resolution table of the stf growth rate, (L, N) = (8, 8) / (10, 10) / (
 | 20 | −17.559 / −17.497 / – | −16.734 / −16.705 / – |
 | 40 | −17.746 / −17.503 / −17.527 | −15.090 / −15.009 / −14.998 |
 | 80 | – / −16.504 / −16.602 | – / −9.774 / −9.419 |
+| 120 | – | – / −4.213 / −2.807 |
+| 160 | – / – / −13.479 | – / +1.242 / +4.255 |
 
-At rotation 0.3 the rate climbs steeply between Rm = 40 and 80: an onset above 80
-is possible but needs (L, N) beyond (12, 12). The cell below redoes a small version
+Converging the rotation-0.3 onset needs (L, N) beyond (12, 12). The cell below redoes a small version
 of the scan (quick sizes under FLOWKIT_QUICK=1).
 """),
     code("""
