@@ -395,7 +395,7 @@ def test_cli_json_has_the_promised_fields(capsys):
 
 def test_cli_sweep_and_critical_report_or_explain(capsys, tmp_path):
     code = main(["dynamo", "abc", "--rm-list", "2,4", "--resolution", "8", "--check-resolution", "none",
-                 "--no-progress", "--save", str(tmp_path / "curve"), "--json"])
+                 "--no-progress", "--save", str(tmp_path / "curve.npz"), "--json"])  # the CLI checks the suffix first
     out = json.loads(capsys.readouterr().out)
     assert code == 0 and list(out["rm"]) == [2.0, 4.0] and len(out["points"]) == 2
     assert RmSweep.load(out["saved"]).growth_rate.tolist() == out["growth_rate"]

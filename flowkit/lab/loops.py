@@ -41,7 +41,7 @@ class LoopExplorer(Explorer):
     kind = "loop"
 
     def __init__(self, flow="stf", *, params=None, time: float = 2.0, passes: int = 12, max_points: int = 20_000,
-                 presets=EXPLORER_PRESETS, figsize=(9.0, 4.2), **kw):
+                 presets=EXPLORER_PRESETS, figsize=(5.6, 3.4), **kw):
         for name, val in (("passes", passes), ("max_points", max_points)):
             if not (isinstance(val, (int, np.integer)) and val >= 1):
                 raise FlowkitError(f"`{name}` must be a positive integer; got {val!r}")
