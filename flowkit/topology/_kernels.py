@@ -58,26 +58,7 @@ def pair_solid_angle(p1, p2, p3, p4):
 
     Coplanar (or degenerate) pairs return exactly 0: their solid angle vanishes.
     """
-    r13x, r13y, r13z = p3[0] - p1[0], p3[1] - p1[1], p3[2] - p1[2]
-    r14x, r14y, r14z = p4[0] - p1[0], p4[1] - p1[1], p4[2] - p1[2]
-    r23x, r23y, r23z = p3[0] - p2[0], p3[1] - p2[1], p3[2] - p2[2]
-    r24x, r24y, r24z = p4[0] - p2[0], p4[1] - p2[1], p4[2] - p2[2]
-    r12x, r12y, r12z = p2[0] - p1[0], p2[1] - p1[1], p2[2] - p1[2]
-    r34x, r34y, r34z = p4[0] - p3[0], p4[1] - p3[1], p4[2] - p3[2]
-    # (r34 x r12) . r13: six times the signed volume; zero means coplanar, Omega = 0
-    vol = ((r34y * r12z - r34z * r12y) * r13x + (r34z * r12x - r34x * r12z) * r13y
-           + (r34x * r12y - r34y * r12x) * r13z)
-    if vol == 0.0:
-        return 0.0
-    n1x, n1y, n1z, a = _unit_cross(r13x, r13y, r13z, r14x, r14y, r14z)
-    n2x, n2y, n2z, b = _unit_cross(r14x, r14y, r14z, r24x, r24y, r24z)
-    n3x, n3y, n3z, c = _unit_cross(r24x, r24y, r24z, r23x, r23y, r23z)
-    n4x, n4y, n4z, d = _unit_cross(r23x, r23y, r23z, r13x, r13y, r13z)
-    if a == 0.0 or b == 0.0 or c == 0.0 or d == 0.0:
-        return 0.0
-    om = (_asin_dot(n1x, n1y, n1z, n2x, n2y, n2z) + _asin_dot(n2x, n2y, n2z, n3x, n3y, n3z)
-          + _asin_dot(n3x, n3y, n3z, n4x, n4y, n4z) + _asin_dot(n4x, n4y, n4z, n1x, n1y, n1z))
-    return om if vol > 0.0 else -om
+    return _omega(p1[0], p1[1], p1[2], p2[0], p2[1], p2[2], p3[0], p3[1], p3[2], p4[0], p4[1], p4[2])
 
 
 @njit(cache=True, inline="always")
@@ -89,6 +70,7 @@ def _omega(ax, ay, az, bx, by, bz, cx, cy, cz, dx, dy, dz):
     r24x, r24y, r24z = dx - bx, dy - by, dz - bz
     r12x, r12y, r12z = bx - ax, by - ay, bz - az
     r34x, r34y, r34z = dx - cx, dy - cy, dz - cz
+    # (r34 x r12) . r13: six times the signed volume; zero means coplanar, Omega = 0
     vol = ((r34y * r12z - r34z * r12y) * r13x + (r34z * r12x - r34x * r12z) * r13y
            + (r34x * r12y - r34y * r12x) * r13z)
     if vol == 0.0:
