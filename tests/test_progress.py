@@ -86,7 +86,8 @@ def test_max_seconds_is_checked(bad):
 #: chunks of the same cost (an interrupt lands between chunks within a fraction of a second).
 ANALYSES = {
     "lyapunov_spectrum": lambda f, k, ms: flowkit.lyapunov_spectrum(
-        f, [0.1, 0.0, 0.3], time=10.0 * k, transient=0.0, intervals=100 * k, blocks=100 * k, max_seconds=ms),
+        f, [0.1, 0.0, 0.3], time=10.0 * k * k, transient=0.0,  # k*k: the long run outlasts the wait
+        intervals=100 * k, blocks=100 * k, max_seconds=ms),
     "orbit_indicator": lambda f, k, ms: orbit_ftle(
         f, np.random.default_rng(1).uniform(-0.4, 0.4, (400 * k, 3)), 20.0, max_seconds=ms),
     "chaotic_fraction": lambda f, k, ms: flowkit.chaotic_fraction(f, 400 * k, 20.0, max_seconds=ms),
