@@ -209,6 +209,7 @@ def assert_cli_matches_summary(cli: dict, summary: dict, skip=("seconds",)):
 def test_cli_json_is_the_result_summary(capsys, tmp_path):
     # the same deterministic computation through the API and the command line
     import flowkit
+    from flowkit.sections.geometry import coordinate_plane
 
     spec = flowkit.lyapunov_spectrum(flowkit.flow("lorenz"), [1.0, 1.0, 20.0], 4.0, blocks=4)
     assert len(spec.summary()["exponents"]) == 3  # the Lorenz system has three exponents
@@ -217,6 +218,6 @@ def test_cli_json_is_the_result_summary(capsys, tmp_path):
     seeds = tmp_path / "seeds.txt"
     seeds.write_text("1.0 2.0 0.5\n2.5 0.5 1.0\n")
     sec = flowkit.poincare_section(flowkit.flow("abc"), [[1.0, 2.0, 0.5], [2.5, 0.5, 1.0]], crossings=5,
-                                   plane=flowkit.Plane((0, 1, 0), 0.0, "+"))
+                                   plane=coordinate_plane("y", 0.0, "+"))  # the CLI draws y = 0 in (x, z)
     assert_cli_matches_summary(_cli_json(capsys, "section", "abc", "--seed-file", str(seeds), "--crossings", "5", "--normal", "0,1,0",
                     "--direction", "+"), sec.summary())

@@ -321,3 +321,23 @@ def test_cli_section_writes_npz_and_reports_json(tmp_path, capsys):
         args = ["section", "stf", "--crossings", "5", *argv, "--json"]
         code = main(args)
         assert code == 2 and msg in json.loads(capsys.readouterr().out)["error"]
+
+
+def test_cli_section_draws_y_plane_in_x_and_z(tmp_path, capsys):
+    # y = 0 is drawn with x to the right and z upwards (as in the lab), not (x, -z)
+    import matplotlib.pyplot as plt
+
+    from flowkit.cli import main
+
+    captured = {}
+    real_close = plt.close
+    plt.close = lambda fig=None: captured.setdefault("fig", fig)  # keep the figure to read its labels
+    try:
+        assert main(["section", "abc", "--crossings", "3", "--seeds", "2", "--plot", str(tmp_path / "s.png"), "--json"]) == 0
+    finally:
+        plt.close = real_close
+    out = json.loads(capsys.readouterr().out)
+    ax = captured["fig"].axes[0]
+    assert (ax.get_xlabel(), ax.get_ylabel()) == ("u along x", "v along z")
+    assert out["section"]["e1"] == [1.0, 0.0, 0.0] and out["section"]["e2"] == [0.0, 0.0, 1.0]
+    real_close(captured["fig"])

@@ -12,7 +12,8 @@ from flowkit.errors import FlowkitError
 def add(sub):
     p = sub.add_parser("section", help="Poincaré section of orbits through a plane (or stroboscopic)")
     add_flow_args(p)
-    p.add_argument("--normal", default="0,1,0", metavar="X,Y,Z", help="plane normal (default 0,1,0)")
+    p.add_argument("--normal", default="0,1,0", metavar="X,Y,Z", help="plane normal (default 0,1,0); a coordinate axis is drawn in the other two coordinates, "
+                        "e.g. y = D in (x, z)")
     p.add_argument("--offset", type=float, default=0.0, metavar="D", help="plane offset along the unit normal (default 0)")
     p.add_argument("--direction", choices=["+", "-", "both"], default="both",
                    help="crossings kept: both (default, as the lab and `run.sh headless`), or + / - for one side "
@@ -45,7 +46,7 @@ def run(args) -> dict:
         raise FlowkitError(f"--crossings must be a positive integer; got {args.crossings}")
     if not (math.isfinite(args.rtol) and args.rtol > 0):
         raise FlowkitError(f"--rtol must be a positive number; got {args.rtol}")
-    plane = Plane(parse_vector(args.normal, "--normal"), args.offset, args.direction)
+    plane = _plane(parse_vector(args.normal, "--normal"), args.offset, args.direction)
     geom = Stroboscopic() if args.stroboscopic else plane
     if args.seed_file:
         X0 = seeding.read_seed_file(args.seed_file)
@@ -80,6 +81,21 @@ def run(args) -> dict:
     if args.plot:
         out["plot"] = _figure(sec, args.plot)
     return out
+
+
+def _plane(normal, offset: float, direction: str):
+    """The section plane; a coordinate normal is drawn in the other two coordinates, in order
+    (y = c in (x, z), as in the lab), other normals in the plane's own right-handed basis."""
+    import numpy as np
+
+    from flowkit.sections import Plane
+    from flowkit.sections.geometry import coordinate_plane
+
+    n = np.asarray(normal, dtype=float)
+    for i, axis in enumerate("xyz"):
+        if n[i] > 0 and np.count_nonzero(n) == 1:
+            return coordinate_plane(axis, offset, direction)
+    return Plane(n, offset, direction)
 
 
 def _levels(sec, plane):

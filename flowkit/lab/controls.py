@@ -173,25 +173,7 @@ DIRECTION_CHOICES = (("+", "+"), ("−", "-"), ("both", "both"))
 #: all crossings, so the whole trace of each orbit shows and a clicked seed appears where it was clicked.
 DEFAULT_DIRECTION = "both"
 #: In-plane axes (horizontal, vertical) of the coordinate planes: the other two coordinates in order.
-PLANE_AXES = {"x": ("y", "z"), "y": ("x", "z"), "z": ("x", "y")}
-
-
-def coordinate_plane(axis: str, offset: float = 0.0, direction: str = DEFAULT_DIRECTION):
-    """The plane ``axis = offset`` with in-plane coordinates named by the other two coordinates.
-
-    ``x = c`` gives (y, z), ``y = c`` gives (x, z), ``z = c`` gives (x, y), each increasing to
-    the right and upwards. ``direction`` refers to the coordinate ``axis`` itself: ``"+"`` keeps
-    crossings where it increases. For ``y`` the plane is stored with normal -y (so that x, z is
-    a right-handed in-plane basis), its offset and direction flipped to match.
-    """
-    from flowkit.sections import Plane
-
-    if axis not in PLANE_AXES:
-        raise FlowkitError(f"`axis` must be 'x', 'y' or 'z'; got {axis!r}")
-    if axis == "y":
-        flipped = {"+": "-", "-": "+", "both": "both"}[direction]
-        return Plane((0.0, -1.0, 0.0), -float(offset), flipped, axis1=(1.0, 0.0, 0.0))
-    return Plane(tuple(float(a == axis) for a in "xyz"), float(offset), direction)
+from flowkit.sections.geometry import PLANE_AXES, coordinate_plane  # noqa: E402,F401  (re-exported for the lab)
 
 
 def direction_text(axis: str, direction: str) -> str:

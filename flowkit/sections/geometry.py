@@ -169,3 +169,23 @@ def lattice_spacing(normal: np.ndarray, box: float = 2 * math.pi) -> float:
         f"`normal` {n.round(6).tolist()} is not parallel to a small integer vector, so the plane is not the same in "
         "every periodic cell; on a periodic domain use a normal such as (0, 0, 1) or (1, 1, 0)"
     )
+
+
+#: In-plane axes (horizontal, vertical) of the coordinate planes: the other two coordinates in order.
+PLANE_AXES = {"x": ("y", "z"), "y": ("x", "z"), "z": ("x", "y")}
+
+
+def coordinate_plane(axis: str, offset: float = 0.0, direction: str = "both") -> Plane:
+    """The plane ``axis = offset`` with in-plane coordinates named by the other two coordinates.
+
+    ``x = c`` gives (y, z), ``y = c`` gives (x, z), ``z = c`` gives (x, y), each increasing to
+    the right and upwards. ``direction`` refers to the coordinate ``axis`` itself: ``"+"`` keeps
+    crossings where it increases. For ``y`` the plane is stored with normal -y (so that x, z is
+    a right-handed in-plane basis), its offset and direction flipped to match.
+    """
+    if axis not in PLANE_AXES:
+        raise FlowkitError(f"`axis` must be 'x', 'y' or 'z'; got {axis!r}")
+    if axis == "y":
+        flipped = {"+": "-", "-": "+", "both": "both"}[direction]
+        return Plane((0.0, -1.0, 0.0), -float(offset), flipped, axis1=(1.0, 0.0, 0.0))
+    return Plane(tuple(float(a == axis) for a in "xyz"), float(offset), direction)
