@@ -1,17 +1,20 @@
-"""Writhe of a 10^5-point closed curve: the numba kernel against the numpy reference, two threads against one.
+"""Writhe of a 10^5-point closed curve: fast path, exact kernel and numpy reference, two threads against one.
 
 1. Writhe of a (2, 3) torus knot sampled at N = 10^5 points (5 * 10^9 segment pairs)
-   with :func:`flowkit.topology.writhe.writhe_sum` on one thread and on two.
-2. The numpy reference (tests/naive_topology.py: the same solid-angle formula over
-   all ordered pairs, vectorized per block of rows) is O(N^2): 10^10 ordered pairs
-   would take hours, so it runs on a subsample of N_ref points in the same run and
-   its time is scaled by (N / N_ref)^2 (both codes do the same work per pair). The
-   kernel is also timed at N_ref, so the per-pair cost of both is measured directly.
-3. Linking number of the knot with its core circle, N x N pairs, for scale.
+   with the fast path (:func:`flowkit.topology.writhe.fast_writhe_sum`: corrected
+   midpoint rule over all pairs, exact solid angles within 8 segments) on one
+   thread and on two, with its bound on |fast - exact polygon sum|.
+2. The exact solid-angle kernel (:func:`~flowkit.topology.writhe.writhe_sum`) is
+   O(N^2) at ~100x the cost per pair, so it runs at N_exact points in the same run;
+   its time is scaled by (N / N_exact)^2, and the fast path is compared with it there
+   (difference against the stated bound).
+3. The numpy reference (tests/naive_topology.py: the same solid-angle formula over all
+   ordered pairs, vectorized per block of rows) runs at N_ref points, scaled likewise.
+4. Linking number of the knot with its core circle at N_exact x N_exact (exact kernel).
 
 Standalone: ``python benchmarks/bench_topology.py`` (``--quick``: N = 2 * 10^4).
 Writes benchmarks/results/topology.json. The machine may be shared: the load
-average is recorded.
+average is recorded before and after.
 """
 
 import argparse
@@ -27,7 +30,7 @@ sys.path.insert(0, str(Path(__file__).parents[1] / "tests"))
 from _common import save  # noqa: E402
 
 import naive_topology as naive  # noqa: E402
-from flowkit.topology.writhe import linking_sum, writhe_sum  # noqa: E402
+from flowkit.topology.writhe import fast_writhe_sum, linking_sum, writhe_sum  # noqa: E402
 
 
 def knot(n: int) -> np.ndarray:
@@ -56,41 +59,57 @@ def timed(fn):
 
 
 def main(argv=None) -> dict:
+    import os
+
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="N = 2e4 instead of 1e5")
     ap.add_argument("--ref-points", type=int, default=2000, help="points of the numpy reference run")
+    ap.add_argument("--exact-points", type=int, default=10000, help="points of the exact-kernel run")
     ap.add_argument("--points", type=int, default=None, help="curve points (default 1e5; --quick 2e4)")
     args = ap.parse_args(argv)
     n = args.points or (20_000 if args.quick else 100_000)
-    nref = args.ref_points
-    writhe_sum(knot(64), 1), writhe_sum(knot(64), 2), linking_sum(knot(64), knot(64) + 5.0)  # compile
-    P, R = knot(n), knot(nref)
-
-    (wr_ref_small, _), t_numpy = timed(lambda: (naive_writhe_blocked(R), None))
-    (wr_small, *_), t_kernel_small = timed(lambda: writhe_sum(R, 1))
-    pairs_small = nref * (nref - 3) / 2
-    (w1, *_), t1 = timed(lambda: writhe_sum(P, 1))
-    (w2, *_), t2 = timed(lambda: writhe_sum(P, 2))
+    nref, nex = args.ref_points, args.exact_points
+    load_before = os.getloadavg()
+    for th in (1, 2):  # compile
+        writhe_sum(knot(64), th), fast_writhe_sum(knot(64), th)
+    linking_sum(knot(64), knot(64) + 5.0)
+    P, R, E = knot(n), knot(nref), knot(nex)
     pairs = n * (n - 3) / 2
+
+    (wr_numpy, _), t_numpy = timed(lambda: (naive_writhe_blocked(R), None))
+    (wr_kernel_ref, *_), t_kernel_ref = timed(lambda: writhe_sum(R, 1))
+    (wr_exact, *_), t_exact = timed(lambda: writhe_sum(E, 2))
+    (wr_fast_e, bound_e, *_), t_fast_e = timed(lambda: fast_writhe_sum(E, 2))
+    (f1, b1, *_, near_pairs), t1 = timed(lambda: fast_writhe_sum(P, 1))
+    (f2, *_), t2 = timed(lambda: fast_writhe_sum(P, 2))
     t_numpy_scaled = t_numpy * (n / nref) ** 2
-    core = np.stack([np.cos(2 * np.pi * np.arange(n) / n), np.sin(2 * np.pi * np.arange(n) / n), np.zeros(n)], 1)
-    (lk, *_), t_lk = timed(lambda: linking_sum(P, core, 2))
+    t_exact_scaled = t_exact * (n / nex) ** 2
+    th = 2 * np.pi * np.arange(nex) / nex
+    core = np.stack([np.cos(th), np.sin(th), np.zeros(nex)], 1)
+    (lk, *_), t_lk = timed(lambda: linking_sum(E, core, 2))
     out = {
-        "points": n, "ref_points": nref,
-        "writhe": w1, "writhe_two_threads": w2, "same_on_both": w1 == w2,
-        "kernel_matches_numpy_at_ref_points": abs(wr_small - wr_ref_small),
-        "seconds_one_thread": t1, "seconds_two_threads": t2, "thread_speedup": t1 / t2,
-        "ns_per_pair_one_thread": t1 / pairs * 1e9, "ns_per_pair_two_threads": t2 / pairs * 1e9,
-        "numpy_seconds_at_ref_points": t_numpy, "kernel_seconds_at_ref_points": t_kernel_small,
-        "numpy_ns_per_ordered_pair": t_numpy / (nref * nref) * 1e9,
+        "points": n, "ref_points": nref, "exact_points": nex,
+        "fast_writhe": f1, "fast_bound": b1, "near_pairs": near_pairs,
+        "fast_same_on_one_and_two_threads": f1 == f2,
+        "fast_seconds_one_thread": t1, "fast_seconds_two_threads": t2, "thread_speedup": t1 / t2,
+        "fast_ns_per_pair_one_thread": t1 / pairs * 1e9, "fast_ns_per_pair_two_threads": t2 / pairs * 1e9,
+        "exact_writhe_at_exact_points": wr_exact, "fast_writhe_at_exact_points": wr_fast_e,
+        "fast_minus_exact_at_exact_points": wr_fast_e - wr_exact, "fast_bound_at_exact_points": bound_e,
+        "exact_seconds_at_exact_points_two_threads": t_exact, "fast_seconds_at_exact_points_two_threads": t_fast_e,
+        "exact_seconds_scaled_to_points_two_threads": t_exact_scaled,
+        "speedup_fast_vs_exact_two_threads": t_exact_scaled / t2,
+        "kernel_matches_numpy_at_ref_points": abs(wr_kernel_ref - wr_numpy),
+        "numpy_seconds_at_ref_points": t_numpy, "exact_kernel_seconds_at_ref_points_one_thread": t_kernel_ref,
         "numpy_seconds_scaled_to_points": t_numpy_scaled,
-        "speedup_vs_numpy_one_thread": t_numpy_scaled / t1, "speedup_vs_numpy_two_threads": t_numpy_scaled / t2,
-        "linking_with_core": lk, "linking_seconds_two_threads": t_lk,
-        "note": "numpy reference measured at ref_points and scaled by (points/ref_points)^2 (O(N^2) work)",
-        "per_pair_ratio_at_ref_points": (t_numpy / (nref * nref)) / (t_kernel_small / pairs_small),
+        "speedup_fast_vs_numpy_one_thread": t_numpy_scaled / t1,
+        "speedup_fast_vs_numpy_two_threads": t_numpy_scaled / t2,
+        "linking_with_core_at_exact_points": lk, "linking_seconds_two_threads": t_lk,
+        "load_before": load_before, "load_after": os.getloadavg(),
+        "note": "numpy and exact-kernel times measured at their own sizes and scaled by the square of the size "
+                "ratio (O(N^2) work, same work per pair)",
     }
     for k, v in out.items():
-        print(f"{k:40s} {v}")
+        print(f"{k:45s} {v}")
     save("topology", out)
     return out
 

@@ -135,6 +135,80 @@ def test_writhe_error_estimate_bounds_the_true_error():
     assert abs(w.writhe - exact) < 3 * w.error and w.error < 1e-2
 
 
+# -- fast writhe (midpoint rule + exact near pairs) ----------------------------------------------------
+def test_corrected_midpoint_rule_and_its_bound_per_segment_pair():
+    """The per-pair rule and bound of flowkit.topology._fast (fourth-order Taylor remainder, derived
+    there) against the exact solid angle (Biopolymers 54, 2000, 307), and the derivative bound
+    max |d^4/dt^4 |x + t e|^-3| = 360 / |x|^7 against sympy."""
+    from flowkit.topology._fast import _rule
+
+    t, c = sp.symbols("t c", real=True)
+    d4 = sp.diff(((1 + t * c) ** 2 + t ** 2 * (1 - c ** 2)) ** sp.Rational(-3, 2), t, 4).subs(t, 0)
+    cs = np.linspace(-1, 1, 2001)
+    assert np.abs(sp.lambdify(c, d4)(cs)).max() == pytest.approx(360)
+    rng = np.random.default_rng(11)
+    ratios = []
+    for _ in range(300):
+        p1, p3 = rng.normal(size=3), rng.normal(size=3) * rng.uniform(0.5, 3)
+        li, lj = rng.uniform(0.05, 0.6, 2)
+        ui, uj = (v / np.linalg.norm(v) for v in rng.normal(size=(2, 3)))
+        p2, p4 = p1 + li * ui, p3 + lj * uj
+        rho = K.segment_distance(p1, p2, p3, p4)
+        if rho < 0.05:
+            continue
+        d = 0.5 * (p1 + p2) - 0.5 * (p3 + p4)
+        v = np.dot(np.cross(li * ui, lj * uj), d)
+        rule = _rule(*d, *(li * ui), *(lj * uj))[0]
+        bound = 31 / 16 * max(li, lj) ** 4 * abs(v) / rho ** 7
+        err = abs(K.pair_solid_angle(p1, p2, p3, p4) - rule)
+        assert err <= bound * (1 + 1e-9) + 1e-15
+        ratios.append(err / bound if bound > 0 else 0)
+    assert len(ratios) > 200 and max(ratios) > 0.01  # the bound is not vacuous
+
+
+def test_fast_writhe_within_its_bound_of_the_exact_kernel():
+    """Fast against the exact polygon sum (the reference kernel): the difference stays within the stated
+    bound, the bound falls with the sampling, and the value does not depend on the thread count."""
+    from flowkit.topology.writhe import fast_writhe_sum, writhe_sum
+
+    rng = np.random.default_rng(4)
+    f = random_curve(rng)
+    for n, noise in ((1500, 0.0), (1500, 2e-3), (4000, 0.0)):
+        P = f(np.arange(n) / n) + noise * rng.normal(size=(n, 3))
+        exact, dist, *_ = writhe_sum(P)
+        fast1, bound, fdist, *_, pairs = fast_writhe_sum(P, threads=1)
+        fast2 = fast_writhe_sum(P, threads=2)[0]
+        assert fast1 == fast2 and fdist == dist and pairs > 0
+        assert abs(fast1 - exact) <= bound and abs(fast1 - exact) > 0
+        if noise == 0.0:
+            assert bound < 3e-3
+    w = T.writhe(f, n=4000, method="fast")
+    assert w.method == "fast" and w.method_bound == pytest.approx(bound, rel=1e-6)
+    assert T.writhe(f, n=4000, method="exact").writhe == pytest.approx(w.writhe, abs=w.method_bound)
+    with pytest.raises(FlowkitError, match="method must be"):
+        T.writhe(f, method="quick")
+
+
+def test_fast_writhe_of_planar_curves_and_the_thin_torus_limit():
+    """Planar curve: every numerator (u_i x u_j).(m_i - m_j) vanishes, Wr = 0 exactly. Torus knot:
+    |Wr| = pq + Tw (see test_torus_knot_writhe_and_its_thin_torus_limit), within the sampling error
+    plus the fast method's bound."""
+    th = 2 * np.pi * np.arange(5000) / 5000
+    rad = 1 + 0.3 * np.cos(3 * th) + 0.2 * np.sin(5 * th + 1)
+    P = np.stack([rad * np.cos(th), rad * np.sin(th), 0 * th], 1)
+    assert T.writhe(P, method="fast").writhe == 0.0
+    Rm = np.linalg.qr(np.random.default_rng(0).normal(size=(3, 3)))[0]
+    assert abs(T.writhe(P @ Rm.T, method="fast").writhe) < 1e-11
+    p, q, eps = 2, 3, 0.05
+    g = lambda t: p * q / math.sqrt(eps ** 2 * q ** 2 + p ** 2 * (1 + eps * math.cos(q * t)) ** 2)  # noqa: E731
+    tw = -scipy.integrate.quad(g, 0, 2 * math.pi, limit=200, epsabs=1e-13)[0] / (2 * math.pi)
+    w = T.writhe(torus_knot(p, q, 1.0, eps), n=20000, method="auto")
+    assert w.method == "fast" and w.method_bound < 1e-4
+    assert w.writhe == pytest.approx(-p * q - tw, abs=5 * w.error + w.method_bound)
+    coef = (abs(w.writhe) - q * (p - 1)) / eps ** 2
+    assert coef == pytest.approx(q * ((q / p) ** 2 - 1) / 2, rel=0.01)
+
+
 # -- linking -------------------------------------------------------------------------------------
 def test_hopf_link_and_unlinked_circles():
     """Two unit circles through each other's centres link once (Hopf link); apart they do not (exact)."""

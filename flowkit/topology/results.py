@@ -57,7 +57,12 @@ class CurveGeometry(Result):
 
 @dataclass
 class Writhe(Result):
-    """Writhe of a closed curve (exact for its polygon) with a sampling error from half the samples."""
+    """Writhe of a closed curve with a sampling error from half the samples.
+
+    ``method`` "exact" sums the polygon's segment pairs exactly; "fast" uses the
+    midpoint rule away from near pairs, and ``method_bound`` bounds its difference
+    from the exact polygon sum (see :mod:`flowkit.topology._fast`).
+    """
 
     writhe: float
     error: float
@@ -65,6 +70,8 @@ class Writhe(Result):
     samples: int
     closest_distance: float
     points: np.ndarray
+    method: str = "exact"
+    method_bound: float = 0.0
     provenance: dict = field(default_factory=dict)
 
     _ARRAYS = ("points",)
@@ -72,10 +79,12 @@ class Writhe(Result):
 
     def summary(self) -> dict:
         return {"writhe": self.writhe, "error": _f(self.error), "coarse_writhe": _f(self.coarse_writhe),
-                "samples": self.samples, "closest_distance": self.closest_distance}
+                "samples": self.samples, "closest_distance": self.closest_distance,
+                "method": self.method, "method_bound": self.method_bound}
 
     def headline(self):
-        return [("Wr", self.writhe, self.error), ("samples", self.samples, None)]
+        return [("Wr", self.writhe, self.error), ("samples", self.samples, None),
+                ("method", self.method, None), ("bound on |fast - exact|", self.method_bound, None)]
 
 
 @dataclass

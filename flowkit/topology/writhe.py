@@ -19,6 +19,7 @@ import numpy as np
 
 from flowkit.errors import FlowkitError
 from flowkit.integrate.batch import thread_limit
+from flowkit.topology import _fast as K2
 from flowkit.topology import _kernels as K
 from flowkit.topology.curves import ClosedCurve, closed_curve
 
@@ -41,6 +42,43 @@ def writhe_sum(P: np.ndarray, threads: int | None = None) -> tuple[float, float,
         K.writhe_rows(P, rows, dmin, jmin)
     i = int(np.argmin(dmin))
     return float(np.sum(rows) / (2 * math.pi)), float(dmin[i]), i, int(jmin[i])
+
+
+#: near pairs (exact solid angles) of the fast writhe: midpoints closer than this many longest segments
+NEAR = 8.0
+
+
+def fast_writhe_sum(P: np.ndarray, threads: int | None = None, near: float = NEAR):
+    """Writhe of the closed polygon ``P`` by a corrected midpoint rule with exact near pairs.
+
+    See :mod:`flowkit.topology._fast`. Returns ``(Wr, bound, distance, i, j, near_pairs)``:
+    ``bound`` is a rigorous bound on |Wr - exact polygon writhe| up to round-off;
+    the closest pair (i, j) is searched among the near pairs only (every pair
+    farther apart is at least (near - 1) longest segments apart).
+    """
+    P = np.ascontiguousarray(P, dtype=np.float64)
+    n = len(P)
+    if n < 8:
+        raise FlowkitError(f"the fast writhe needs at least 8 points (got {n}): use method='exact'")
+    if not near >= 2:
+        raise FlowkitError(f"near must be at least 2 (segment lengths; got {near})")
+    S = np.roll(P, -1, axis=0) - P
+    M = P + 0.5 * S
+    lmax = float(np.sqrt((S * S).sum(1)).max())
+    cut = near * lmax
+    keep2 = cut * cut * (1 - 1e-9)
+    cols = [np.ascontiguousarray(a) for a in (*M.T, *S.T)]
+    rows, bounds = np.zeros(n), np.zeros(n)
+    nrows, dmin = np.zeros(n), np.full(n, np.inf)
+    jmin, counts = np.full(n, -1, dtype=np.int64), np.zeros(n, dtype=np.int64)
+    with thread_limit(threads):
+        K2.midpoint_rows(*cols, keep2, rows, bounds)
+        K2.near_rows(P, M, cut, nrows, dmin, jmin, counts)
+    # bound per far pair: (31/16) lmax^4 |V_s| / rho^7 with rho >= r (1 - lmax / r), r >= sqrt(keep2)
+    k = 31 / 16 * lmax ** 4 / (1 - lmax / math.sqrt(keep2)) ** 7
+    wr = (float(np.sum(rows)) + float(np.sum(nrows))) / (2 * math.pi)
+    i = int(np.argmin(dmin))
+    return wr, k * float(np.sum(bounds)) / (2 * math.pi), float(dmin[i]), i, int(jmin[i]), int(counts.sum())
 
 
 def linking_sum(P: np.ndarray, Q: np.ndarray, threads: int | None = None) -> tuple[float, float, int, int]:
@@ -70,8 +108,13 @@ def check_apart(dist: float, i: int, j: int, P, Q, scale: float, what: str) -> N
             "the writhe / linking number is undefined for touching curves: move them apart")
 
 
-def writhe(curve, *, n: int | None = None, error: bool = True, threads: int | None = None):
-    """Writhe of a closed curve: the exact Gauss double integral of its polygon.
+#: ``method="auto"`` takes the fast writhe from this many points on
+FAST_FROM = 20_000
+
+
+def writhe(curve, *, n: int | None = None, error: bool = True, threads: int | None = None,
+           method: str = "auto", near: float = NEAR):
+    """Writhe of a closed curve: the Gauss double integral of its polygon.
 
     Parameters
     ----------
@@ -83,6 +126,14 @@ def writhe(curve, *, n: int | None = None, error: bool = True, threads: int | No
         Estimate the sampling error from the curve at half the samples.
     threads : int, optional
         Numba threads (the value does not depend on it).
+    method : {"auto", "exact", "fast"}
+        "exact": every segment pair's solid angle (O(N^2) solid angles).
+        "fast": corrected midpoint Gauss rule for pairs farther apart than ``near`` longest
+        segments, exact solid angles for the others, and a rigorous bound on the
+        difference from "exact" (``method_bound``; see :mod:`flowkit.topology._fast`).
+        "auto": "fast" from FAST_FROM points on.
+    near : float
+        Near-pair radius of the fast method, in longest-segment lengths (>= 2).
 
     Returns
     -------
@@ -95,16 +146,26 @@ def writhe(curve, *, n: int | None = None, error: bool = True, threads: int | No
     """
     from flowkit.topology.results import Writhe
 
+    if method not in ("auto", "exact", "fast"):
+        raise FlowkitError(f"method must be 'auto', 'exact' or 'fast' (got {method!r})")
     c = closed_curve(curve, n)
-    wr, dist, i, j = writhe_sum(c.points, threads)
+    if method == "auto":
+        method = "fast" if c.n >= FAST_FROM else "exact"
+    if method == "fast":
+        wr, bound, dist, i, j, _ = fast_writhe_sum(c.points, threads, near)
+    else:
+        (wr, dist, i, j), bound = writhe_sum(c.points, threads), 0.0
     check_apart(dist, i, j, c.points, c.points, c.diameter(), "the curve crosses itself")
     err, coarse = math.nan, math.nan
-    if error and c.n >= 8:
-        coarse = writhe_sum(c.coarse().points, threads)[0]
+    if error and c.n >= (16 if method == "fast" else 8):
+        P = c.coarse().points
+        coarse = fast_writhe_sum(P, threads, near)[0] if method == "fast" else writhe_sum(P, threads)[0]
         err = abs(wr - coarse) / 3
+    how = ("exact polygon solid angles (Biopolymers 54, 2000, 307)" if method == "exact" else
+           f"corrected midpoint Gauss rule, exact solid angles (Biopolymers 54, 2000, 307) within {near:g} segments")
     return Writhe(writhe=wr, error=err, coarse_writhe=coarse, samples=c.n, closest_distance=dist,
-                  points=c.points, provenance={"curve": c.description, "method": "exact polygon solid angles "
-                                                "(Biopolymers 54, 2000, 307); error from half the samples"})
+                  points=c.points, method=method, method_bound=bound,
+                  provenance={"curve": c.description, "method": how + "; error from half the samples"})
 
 
 def linking_number(a, b, *, n: int | None = None, threads: int | None = None):
