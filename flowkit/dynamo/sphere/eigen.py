@@ -18,12 +18,13 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import scipy.sparse as sps
 from scipy.linalg import lu_factor, lu_solve
-from scipy.sparse.linalg import ArpackNoConvergence, LinearOperator, eigs
+from scipy.sparse.linalg import ArpackNoConvergence, LinearOperator, eigs, splu
 
 from flowkit.dynamo.sphere.march import Stepper, stable_step
 
-SHIFT_DEFAULTS = {"nev": 4, "ncv": 20, "tol": 1e-10, "maxiter": 20000, "shift": 30.0}
+SHIFT_DEFAULTS = {"nev": 4, "ncv": 20, "tol": 1e-10, "maxiter": 20000, "shift": 30.0, "guesses": None}
 PROPAGATOR_DEFAULTS = {"nev": 6, "ncv": 24, "tol": 1e-8, "maxiter": 3000, "tau": None, "cfl": 1.5, "seed": 0}
 
 
@@ -32,8 +33,10 @@ def _pack_out(op, lam, vec, converged, message, **extra):
             "matvecs": op.matvecs, **extra}
 
 
-#: Largest per-order block solved by dense LAPACK ``eig`` (all eigenvalues; ~0.1 s at this size).
+#: Largest family block solved by dense LAPACK ``eig`` (all eigenvalues; ~0.1 s at this size).
 DENSE_MAX = 800
+#: Up to this many unknowns a shifted block is factorised densely (faster than SuperLU's fill-in).
+DENSE_LU_MAX = 6000
 
 
 def guesses_from_coarse(op, count: int = 2) -> list[complex]:
@@ -66,11 +69,13 @@ def arpack_near(A, solve_factory, shifts, nev, ncv, tol, maxiter):
     ncv = int(min(max(ncv, 2 * nev + 1), n - 1))
     vals_all, vecs_all, ok, msg = [], [], True, ""
     for s in shifts:
-        solve = solve_factory(s)
-        opinv = LinearOperator((n, n), matvec=solve, dtype=complex)
-        v0 = np.ones(n, complex) / math.sqrt(n)
+        M = A if np.isrealobj(A) and np.imag(s) == 0 else A.astype(complex)
+        s = float(np.real(s)) if np.isrealobj(M) else complex(s)
+        solve = solve_factory(M, s)
+        opinv = LinearOperator((n, n), matvec=solve, dtype=M.dtype)
+        v0 = np.ones(n, M.dtype) / math.sqrt(n)
         try:
-            vals, vecs = eigs(A, k=nev, sigma=s, OPinv=opinv, ncv=ncv, tol=tol, maxiter=maxiter, v0=v0)
+            vals, vecs = eigs(M, k=nev, sigma=s, OPinv=opinv, ncv=ncv, tol=tol, maxiter=maxiter, v0=v0)
         except ArpackNoConvergence as exc:
             vals, vecs = exc.eigenvalues, exc.eigenvectors
             ok, msg = False, f"ARPACK found {len(vals)} of {nev} eigenvalues near {s:.4g}"
@@ -83,37 +88,86 @@ def arpack_near(A, solve_factory, shifts, nev, ncv, tol, maxiter):
     return vals[order], np.array(vecs_all)[order].T, ok, msg
 
 
-def shift_invert(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0) -> dict:
-    """Leading eigenvalue of one order of an axisymmetric flow (see the module docstring).
+def lu_factory(M, s):
+    """``x -> (M - s I)^-1 x``: dense LU up to :data:`DENSE_LU_MAX` unknowns, SuperLU beyond."""
+    n = M.shape[0]
+    if n <= DENSE_LU_MAX or not sps.issparse(M):
+        dense = M.toarray() if sps.issparse(M) else M
+        lu = lu_factor(dense - s * np.eye(n, dtype=dense.dtype))
+        return lambda x: lu_solve(lu, x)
+    return splu((M - s * sps.identity(n, dtype=M.dtype, format="csc")).tocsc()).solve
 
-    Blocks up to :data:`DENSE_MAX` unknowns: dense ``eig``. Larger ones: shift-invert
-    ARPACK around the leading eigenvalues of a coarse resolution (offset by ``+0.5``
-    in real part) and at the real shift ``shift``; the largest real part found wins.
-    """
+
+def merge_shifts(guesses, real: bool, extra=None) -> list:
+    """Shifts ``g + 0.5`` next to the guesses; nearly steady ones on the real axis (real arithmetic),
+    one of each conjugate pair for a real block, duplicates (within 0.5) dropped."""
+    out: list = []
+    for g in guesses:
+        s = complex(g) + 0.5
+        if abs(s.imag) < 1.0:
+            s = complex(s.real, 0.0)
+        if real and s.imag < 0:
+            s = s.conjugate()
+        if all(abs(s - t) > 0.5 for t in out):
+            out.append(s)
+    if extra is not None:
+        out.append(complex(float(extra), 0.0))
+    return out or [complex(0.0, 0.0)]
+
+
+def block_eigs(B, guesses, nev, ncv, tol, maxiter, shift=None):
+    """Leading eigenpairs of one family block: dense ``eig`` up to :data:`DENSE_MAX`, else shift-invert."""
     from scipy.linalg import eig
 
-    A = op.matrix()
-    n = A.shape[0]
-    if n <= DENSE_MAX:
-        vals, vecs = eig(A)
+    n = B.shape[0]
+    if n <= DENSE_MAX or n < 8:
+        vals, vecs = eig(B.toarray() if sps.issparse(B) else B)
         order = np.argsort(-vals.real)
-        vals, vecs = vals[order], vecs[:, order]
-        ok, msg, shifts = True, "", []
-    else:
-        shifts = [g + 0.5 for g in guesses_from_coarse(op)] + [float(shift)]
-        eye = np.eye(n)
+        return vals[order], vecs[:, order], True, "", []
+    shifts = merge_shifts(guesses, np.isrealobj(B), shift)
+    vals, vecs, ok, msg = arpack_near(B, lu_factory, shifts, nev, ncv, tol, maxiter)
+    return vals, vecs, ok, msg, shifts
 
-        def factory(s):
-            lu = lu_factor(A - s * eye)
-            return lambda x: lu_solve(lu, x)
 
-        vals, vecs, ok, msg = arpack_near(A, factory, shifts, nev, ncv, tol, maxiter)
-    if vecs is None:
-        return _pack_out(op, complex("nan"), None, False, msg, eigenvalues=[])
-    x = vecs[:, 0] / np.linalg.norm(vecs[:, 0])
-    residual = float(np.linalg.norm(A @ x - vals[0] * x))
-    return _pack_out(op, vals[0], x, ok, msg, shifts=[[float(np.real(s)), float(np.imag(s))] for s in shifts],
-                     residual=residual, eigenvalues=[[float(z.real), float(z.imag)] for z in vals[:8]])
+def solve_families(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None) -> dict:
+    """Leading eigenvalue of ``op`` from its real, decoupled family blocks (:mod:`~.parts`)."""
+    from flowkit.dynamo.sphere.parts import operator_parts, real_blocks
+
+    parts = operator_parts(op)
+    blocks, to_complex = real_blocks(op, parts)
+    if guesses is None:
+        guesses = guesses_from_coarse(op) if any(b.shape[0] > DENSE_MAX for _, b in blocks) else []
+    found, ok, msgs, shifts = [], True, [], []
+    for ix, B in blocks:
+        vals, vecs, good, msg, used = block_eigs(B, guesses, nev, ncv, tol, maxiter, shift)
+        ok, shifts = ok and good, shifts + [s for s in used if s not in shifts]
+        if msg:
+            msgs.append(msg)
+        if vecs is not None:
+            found += [(v, ix, vecs[:, k]) for k, v in enumerate(vals[:8])]
+    if not found:
+        return _pack_out(op, complex("nan"), None, False, "; ".join(msgs) or "no eigenvalue found", eigenvalues=[])
+    found.sort(key=lambda item: -item[0].real)
+    lam, ix, y = found[0]
+    x = to_complex(ix, y)
+    x /= np.linalg.norm(x)
+    A = parts["D"] + op.rm * parts["K"]
+    residual = float(np.linalg.norm(A @ x - lam * x))
+    return _pack_out(op, lam, x, ok, "; ".join(msgs), shifts=[[float(np.real(s)), float(np.imag(s))] for s in shifts],
+                     residual=residual, families=[len(ix) for ix, _ in blocks],
+                     real_form=parts["real"] is not None,
+                     eigenvalues=[[float(z.real), float(z.imag)] for z, _, _ in found[:8]])
+
+
+def shift_invert(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None) -> dict:
+    """Leading eigenvalue of one order of an axisymmetric flow (see the module docstring).
+
+    The order's matrix ``D + Rm K`` (parts kept across calls), in real form when it has
+    one, split into its decoupled families; blocks up to :data:`DENSE_MAX` unknowns:
+    dense ``eig``; larger ones: shift-invert ARPACK around the leading eigenvalues of a
+    coarse resolution (offset by ``+0.5`` in real part), and at ``shift`` if given.
+    """
+    return solve_families(op, nev, ncv, tol, maxiter, shift, guesses)
 
 
 def propagator(op, nev=6, ncv=24, tol=1e-8, maxiter=3000, tau=None, cfl=1.5, seed=0) -> dict:

@@ -12,11 +12,8 @@ operator on a random vector; shift-invert then uses a sparse LU.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import scipy.sparse as sps
-from scipy.sparse.linalg import ArpackNoConvergence, LinearOperator, eigs, splu
 
 from flowkit.errors import FlowkitError
 
@@ -40,8 +37,16 @@ def coupling_windows(op, samples: int = 6, seed: int = 1) -> tuple[int, int]:
     return dl + 1, dm  # one degree of margin: a sampled column may miss the widest coupling
 
 
-def sparse_matrix(op) -> sps.csc_matrix:
-    """The operator (induction + diffusion) as a sparse matrix, by coloured probes (module docstring)."""
+def sparse_matrix(op, part: str = "all") -> sps.csc_matrix:
+    """The operator as a sparse matrix, by coloured probes (module docstring).
+
+    ``part="all"``: induction + diffusion; ``"induction"``: the induction term alone (at ``op.rm``).
+    """
+    if part == "all":
+        apply = op.apply
+    else:
+        def apply(x):
+            return op.pack(*op.induction(*op.unpack(x)))
     dl, dm = coupling_windows(op)
     sl, sm = 2 * dl + 1, 2 * dm + 1
     L, nr = op.lmax, op.n - 1
@@ -62,7 +67,7 @@ def sparse_matrix(op) -> sps.csc_matrix:
                     T, S = op.zeros()
                     (T if field == 0 else S)[chosen, j] = 1.0
                     probes[field * nr + j] = op.pack(T, S)
-            out = op.apply(probes)  # (2 nr, dof)
+            out = apply(probes)  # (2 nr, dof)
             # which input block each output block came from
             m_in = ms_idx - dm + (cm - (ms_idx - dm)) % sm
             l_in = ls_idx - dl + (cl - (ls_idx - dl)) % sl
@@ -85,7 +90,7 @@ def sparse_matrix(op) -> sps.csc_matrix:
     A = sps.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
                        shape=(op.dof, op.dof))
     x = np.random.default_rng(2).standard_normal(op.dof) + 0j
-    ref = op.apply(x)
+    ref = apply(x)
     err = np.linalg.norm(A @ x - ref) / max(np.linalg.norm(ref), 1e-300)
     if err > 1e-9:
         raise FlowkitError(f"internal check failed: the coloured sparse operator differs from the operator by "
@@ -93,38 +98,14 @@ def sparse_matrix(op) -> sps.csc_matrix:
     return A
 
 
-#: Up to this many unknowns the shifted operator is factorised densely.
-DENSE_LU_MAX = 4000
+def sparse_shift_invert(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None) -> dict:
+    """Leading eigenvalue of the coupled operator: the sparse ``D + Rm K`` in cosine/sine (real) form,
+    split into its decoupled families, each by shift-invert ARPACK (dense LU or SuperLU) at shifts next
+    to the leading eigenvalues of a coarse resolution, and at ``shift`` if given."""
+    from flowkit.dynamo.sphere.eigen import solve_families
 
+    out = solve_families(op, nev, ncv, tol, maxiter, shift, guesses)
+    from flowkit.dynamo.sphere.parts import operator_parts
 
-def sparse_shift_invert(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0) -> dict:
-    """Leading eigenvalue of the coupled operator: shift-invert ARPACK on its sparse LU, at shifts next to
-    the leading eigenvalues of a coarse resolution and at the real shift ``shift``."""
-    from flowkit.dynamo.sphere.eigen import arpack_near, guesses_from_coarse
-
-    A = sparse_matrix(op)
-    n = A.shape[0]
-    eye = sps.identity(n, dtype=complex, format="csc")
-    shifts = [g + 0.5 for g in guesses_from_coarse(op)] + [float(shift)]
-
-    if n <= DENSE_LU_MAX:  # a dense LU is faster than SuperLU's fill-in at these sizes
-        from scipy.linalg import lu_factor, lu_solve
-
-        dense = A.toarray()
-
-        def factory(s):
-            lu = lu_factor(dense - s * np.eye(n))
-            return lambda x: lu_solve(lu, x)
-    else:
-        def factory(s):
-            return splu((A - s * eye).tocsc()).solve
-
-    vals, vecs, ok, msg = arpack_near(A, factory, shifts, nev, ncv, tol, maxiter)
-    if vecs is None:
-        return {"eigenvalue": complex("nan"), "vector": None, "converged": False, "message": msg,
-                "matvecs": op.matvecs}
-    x = vecs[:, 0] / np.linalg.norm(vecs[:, 0])
-    return {"eigenvalue": complex(vals[0]), "vector": x, "converged": ok, "message": msg, "matvecs": op.matvecs,
-            "shifts": [[float(np.real(s)), float(np.imag(s))] for s in shifts], "nnz": int(A.nnz),
-            "residual": float(np.linalg.norm(A @ x - vals[0] * x)),
-            "eigenvalues": [[float(z.real), float(z.imag)] for z in vals[:8]]}
+    out["nnz"] = int(operator_parts(op)["K"].nnz)
+    return out
