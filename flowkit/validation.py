@@ -138,6 +138,25 @@ def resolution(value, name: str = "resolution", *, minimum: int = 4, maximum: in
     return count(value, name, minimum=minimum, maximum=maximum, what=" (grid points per direction)")
 
 
+def grid_shape(value, name: str = "resolution", *, minimum: int = 2) -> tuple[int, int]:
+    """A planar grid size (N, M), from a pair of integers or command-line text ``"NxM"``."""
+    if isinstance(value, str):
+        parts = value.lower().split("x")
+        try:
+            value = tuple(int(v) for v in parts)
+        except ValueError:
+            raise FlowkitError(f"`{name}` expects NxM, e.g. 256x256; got {value!r}") from None
+    try:
+        n, m = value
+    except (TypeError, ValueError):
+        raise FlowkitError(f"`{name}` must be two integers (N, M), e.g. (256, 128); got {value!r}") from None
+    what = " (grid points per axis)"
+    n, m = count(n, name, minimum=1, what=what), count(m, name, minimum=1, what=what)
+    if n < minimum or m < minimum:
+        raise FlowkitError(f"`{name}` must be at least {minimum}x{minimum} grid points; got {value!r}")
+    return n, m
+
+
 def output_path(path, name: str = "path", formats: Iterable[str] = RESULT_FORMATS) -> Path:
     """Check a path a result will be written to, before the work starts.
 

@@ -129,19 +129,13 @@ def default_span(flow: Flow) -> tuple:
     )
 
 
-def check_resolution(resolution) -> tuple[int, int]:
-    """(N, M) grid size with both at least 2, or a clear error."""
-    try:
-        n, m = (int(x) for x in resolution)
-        ok = all(float(x) == int(x) for x in resolution)
-    except (TypeError, ValueError):
-        raise FlowkitError(f"`resolution` must be two integers (N, M); got {resolution!r}") from None
-    if not ok or n < 2 or m < 2:
-        raise FlowkitError(f"`resolution` must be at least 2x2 grid points; got {resolution!r}")
-    from flowkit.validation import memory
+def check_resolution(resolution, name: str = "resolution") -> tuple[int, int]:
+    """(N, M) grid size with both at least 2 that fits in memory, or a clear error."""
+    from flowkit.validation import grid_shape, memory
 
+    n, m = grid_shape(resolution, name)
     # per grid point: position, start, 3x3 deformation state, field values and outcomes (~40 doubles)
-    memory(n * m * _GRID_POINT_BYTES, "resolution", per_unit=_GRID_POINT_BYTES, value=f"{n}x{m}", power=2)
+    memory(n * m * _GRID_POINT_BYTES, name, per_unit=_GRID_POINT_BYTES, value=f"{n}x{m}", power=2)
     return n, m
 
 

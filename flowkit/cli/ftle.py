@@ -38,25 +38,15 @@ def add(sub):
     return p
 
 
-def parse_resolution(text: str) -> tuple[int, int]:
-    parts = str(text).lower().split("x")
-    try:
-        n, m = (int(v) for v in parts)
-    except ValueError:
-        raise FlowkitError(f"--resolution expects NxM, e.g. 256x256; got {text!r}") from None
-    if n < 2 or m < 2:
-        raise FlowkitError(f"--resolution must be at least 2x2; got {text!r}")
-    return n, m
-
-
 def run(args) -> dict:
     from flowkit.chaos import GridPlane, ftle_field
+    from flowkit.chaos.grid import check_resolution
     from flowkit.integrate.batch import IntegratorSettings
 
     flow = flow_from_args(args)
     span = parse_vector(args.span, "--span", 4) if args.span else None
     plane = GridPlane.parse(args.plane, span)
-    resolution = parse_resolution(args.resolution)
+    resolution = check_resolution(args.resolution, "--resolution")  # size and memory, before any compiling
     if args.method == "rk4":
         if args.step is None:
             raise FlowkitError("--method rk4 needs --step, e.g. --step 0.01")

@@ -33,10 +33,13 @@ from flowkit._version import __version__
 #: Template modules compiled for every family (names inside must be unique).
 TEMPLATES: list[str] = [
     "field",
+    "stiffness",
     "steppers",
     "steppers_unrolled",  # generated text, see flowkit/kernels/_unroll.py
     "batch",
     "splitting",
+    "sections_plane",
+    "sections_fixed",
     "sections",
     "lyapunov",
     "ftle",

@@ -26,8 +26,9 @@ import numpy as np
 
 from flowkit.integrate.tableau import W_ROWS
 from flowkit.kernels._stub import CACHE, njit, prange  # flowkit:stub
-from flowkit.kernels.sections import (  # flowkit:stub
-    SEC_D, SEC_KIND, SEC_LAM, SEC_MAX_ROOTS, SEC_NX, SEC_NY, SEC_NZ, SEC_SAMPLES, sec_dense_roots, sec_near,  # flowkit:stub
+from flowkit.kernels.sections_plane import (  # flowkit:stub
+    SEC_D, SEC_KIND, SEC_LAM, SEC_MAX_ROOTS, SEC_NX, SEC_NY, SEC_NZ, SEC_SAMPLES, sec_dense_roots,  # flowkit:stub
+    sec_end_speed, sec_near,  # flowkit:stub
 )  # flowkit:stub
 from flowkit.kernels.steppers import (  # flowkit:stub
     dop853_advance, dop853_dense_eval, dop853_dense_prepare, dop853_initial_step, dop853_solve, rhs,  # flowkit:stub
@@ -74,10 +75,7 @@ def rm_orbit(y, t0, direction, k, span, p, rtol, atol, hmax, max_steps, bounded,
         steps += 1
         t_new = t_lim if (last and hused == h) else t + hused
         S_new = nx * y[0] + ny * y[1] + nz * y[2] - d
-        f0 = W[0]
-        f1 = W[12]
-        speed = math.sqrt(max(f0[0] * f0[0] + f0[1] * f0[1] + f0[2] * f0[2],
-                              f1[0] * f1[0] + f1[1] * f1[1] + f1[2] * f1[2]))
+        speed = sec_end_speed(W)
         if sec_near(S_old, S_new, lam, 1.5 * abs(hused) * speed):
             dop853_dense_prepare(t, hused, y, p, W)
             nr = sec_dense_roots(W, plane, S_old, S_new, th, val, rth, rdir, scratch[6])

@@ -27,20 +27,14 @@ from __future__ import annotations
 import contextlib
 import html
 import io
-import re
 import time
 from pathlib import Path
-
-import numpy as np
 
 import flowkit
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
 from flowkit.lab.controls import Debouncer, moved, param_sliders
-
-#: Matplotlib settings of exported paper figures (small single-column figures).
-PAPER_STYLE = {"font.size": 8, "axes.titlesize": 8, "axes.labelsize": 8, "xtick.labelsize": 7,
-               "ytick.labelsize": 7, "pdf.fonttype": 42, "savefig.bbox": "tight"}
+from flowkit.lab.figures import PAPER_STYLE, file_stem
 
 #: Presets offered by the flow picker (their domain is bounded, so default seeds exist).
 EXPLORER_PRESETS = ("stf", "hill", "abc", "roberts", "circular")
@@ -53,13 +47,6 @@ def resolve_flow(flow, params: dict | None) -> Flow:
     if isinstance(flow, Flow):
         return flow.with_params(**params) if params else flow
     raise FlowkitError(f"`flow` must be a preset name (e.g. 'stf') or a flowkit Flow; got {type(flow).__name__}")
-
-
-def file_stem(kind: str, flow: Flow) -> str:
-    """A file-name stem naming what and which parameters, e.g. ``section-stf-rotation0.3``."""
-    pars = "-".join(f"{k}{v:.4g}" for k, v in flow.param_dict.items())
-    stem = f"{kind}-{flow.name}" + (f"-{pars}" if pars else "")
-    return re.sub(r"[^\w.+-]", "_", stem)
 
 
 class Explorer:
@@ -385,24 +372,3 @@ class Explorer:
 
     def _draw(self, result, preview: bool) -> None:
         raise NotImplementedError
-
-
-def axis_name(e) -> str:
-    """'x', '-z', ... for an in-plane axis along a coordinate axis, else the vector."""
-    e = np.asarray(e, dtype=float)
-    hit = np.flatnonzero(np.abs(e) > 1e-12)
-    if hit.size == 1:
-        return ("-" if e[hit[0]] < 0 else "") + "xyz"[hit[0]]
-    return "(" + ", ".join(f"{c:.3g}" for c in e) + ")"
-
-
-def finite_range(values, floor: float = 0.0) -> tuple[float, float]:
-    """(low, high) of the finite values (a safe colour range), widened if empty or flat."""
-    vals = np.asarray(values, dtype=float)
-    vals = vals[np.isfinite(vals)]
-    if vals.size == 0:
-        return floor, floor + 1.0
-    lo, hi = float(vals.min()), float(vals.max())
-    if hi - lo < 1e-12:
-        hi = lo + 1.0
-    return lo, hi

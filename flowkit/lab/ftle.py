@@ -15,7 +15,8 @@ import numpy as np
 
 from flowkit.errors import FlowkitError, FlowkitNotice
 from flowkit.flows.base import Flow
-from flowkit.lab.base import EXPLORER_PRESETS, Explorer, axis_name, finite_range
+from flowkit.lab.base import EXPLORER_PRESETS, Explorer
+from flowkit.lab.figures import axis_name, finite_range
 from flowkit.lab.controls import PlaneControls, log_slider, moved
 
 #: Grid points above which the full map shows a progress bar.

@@ -29,7 +29,8 @@ import numpy as np
 
 from flowkit.errors import FlowkitError
 from flowkit.flows.base import Flow
-from flowkit.lab.base import EXPLORER_PRESETS, Explorer, axis_name, finite_range
+from flowkit.lab.base import EXPLORER_PRESETS, Explorer
+from flowkit.lab.figures import axis_name, finite_range
 from flowkit.lab.controls import DEFAULT_DIRECTION, PlaneControls, coordinate_plane, direction_text, moved
 from flowkit.lab.palette import ORBIT_COLOURS, orbit_cmap
 from flowkit.plot import plot_section
@@ -273,8 +274,6 @@ class SectionExplorer(Explorer):
 
     # -- drawing --------------------------------------------------------------------------
     def _build_axes(self) -> None:
-        import matplotlib as mpl
-
         from matplotlib.ticker import MaxNLocator
 
         ax = self.fig.add_subplot()
