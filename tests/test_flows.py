@@ -276,3 +276,69 @@ def test_callable_numba_cannot_compile_is_refused():
 def test_unknown_symbol_in_formula_is_refused():
     with pytest.raises(FlowDefinitionError, match="unknown symbol"):
         flowkit.custom_flow(["q*y", "x", "0"])
+
+
+# -- generated code: divisions, the fused velocity_gradient, large formulas ---------------
+def _sympy_reference(exprs, pts):
+    """Velocity and gradient of sympy expressions evaluated by sympy itself (lambdify on numpy)."""
+    u = sp.lambdify((X, Y, Z), list(exprs), "numpy")
+    g = sp.lambdify((X, Y, Z), [sp.diff(e, c) for e in exprs for c in (X, Y, Z)], "numpy")
+    vel = np.stack([np.broadcast_to(np.asarray(c, float), len(pts)) for c in u(*pts.T)], axis=1)
+    grad = np.stack([np.broadcast_to(np.asarray(c, float), len(pts)) for c in g(*pts.T)], axis=1)
+    return vel, grad.reshape(-1, 3, 3)
+
+
+def test_divisions_by_squares_and_cubes_compile_as_written():
+    # sympy printed a/b**2 as "a/b*b" once the small powers became products (that is a, not a/b^2)
+    exprs = [X / (2 + Y) ** 2, Y ** 2 / (2 + X) ** 3, 3 / (3 + Z) ** 4 - X * Y / (X + 3) ** 2]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", FlowkitNotice)
+        f = flowkit.custom_flow(exprs, name="divisions")
+    pts = RNG.uniform(-1, 1, size=(50, 3))
+    vel, grad = _sympy_reference(exprs, pts)
+    np.testing.assert_allclose(f.velocity(pts), vel, rtol=1e-13, atol=1e-14)
+    np.testing.assert_allclose(f.gradient(pts), grad, rtol=1e-13, atol=1e-14)
+
+
+@pytest.mark.parametrize("name", ["abc", "double-gyre", "stf", "hill", "lorenz"])
+def test_fused_velocity_gradient_equals_velocity_and_gradient(name):
+    # one function computing both (shared pieces, chain rule) against the two separate ones
+    f = flowkit.flow(name)
+    pts = ball_points(20)
+    for t in (0.0, 1.3):
+        vg = np.array([f.kernels.velocity_gradient(*p, t, f.params) for p in pts])
+        scale = 1.0 + np.abs(vg).max()
+        np.testing.assert_allclose(vg[:, :3], f.velocity(pts, t), rtol=0, atol=1e-14 * scale)
+        np.testing.assert_allclose(vg[:, 3:], f.gradient(pts, t).reshape(-1, 9), rtol=0, atol=1e-14 * scale)
+
+
+def sphere_benchmark_t2s2(eps=sp.Rational(14, 100)):
+    """The t2s2 flow of Proc. R. Soc. Lond. A 425 (1989) 407-429 in Cartesian sympy, as a user writes it.
+
+    Toroidal part curl(T x) and poloidal part curl curl(T x), T = r sin(pi r) P2(cos theta),
+    x the position vector, unsimplified (sqrt(x^2 + y^2 + z^2) everywhere).
+    """
+    r = sp.sqrt(X**2 + Y**2 + Z**2)
+    T = r * sp.sin(sp.pi * r) * (3 * Z**2 / r**2 - 1) / 2
+    pos = sp.Matrix([X, Y, Z])
+
+    def curl(V):
+        return sp.Matrix([sp.diff(V[2], Y) - sp.diff(V[1], Z), sp.diff(V[0], Z) - sp.diff(V[2], X),
+                          sp.diff(V[1], X) - sp.diff(V[0], Y)])
+
+    tor = sp.Matrix([sp.diff(T, c) for c in (X, Y, Z)]).cross(pos)
+    return list(tor + eps * curl(tor))
+
+
+def test_large_unsimplified_formula_gets_its_gradient_by_the_chain_rule():
+    exprs = sphere_benchmark_t2s2()
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", FlowkitNotice)   # it is divergence-free: no warning may come
+        f = flowkit.custom_flow(exprs, domain="ball", name="t2s2")
+    pts = ball_points(6) * 0.9 + 0.05                  # away from r = 0, where sqrt(r^2) is not smooth
+    vel, grad = _sympy_reference(exprs, pts)
+    np.testing.assert_allclose(f.velocity(pts), vel, rtol=0, atol=1e-12)
+    np.testing.assert_allclose(f.gradient(pts), grad, rtol=0, atol=1e-11)
+    # exact identity: a curl has zero divergence
+    assert np.abs(np.trace(f.gradient(pts), axis1=1, axis2=2)).max() < 1e-12
+    assert "too large" in f.kernels.SPLIT_STATUS

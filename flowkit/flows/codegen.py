@@ -1,8 +1,19 @@
 """Generate numba source for a velocity field and its exact gradient from sympy.
 
-The gradient is differentiated symbolically, never typed by hand, and common
-subexpressions are shared between the three velocity components and the nine
-gradient entries of each function.
+The gradient is differentiated symbolically, never typed by hand. Three functions
+are printed: ``velocity`` (3-tuple), ``gradient`` (row-major 9-tuple) and
+``velocity_gradient`` (the 12 numbers together, for kernels that need both at one
+point, so trigonometric and other shared terms are computed once).
+
+``velocity_gradient`` is built as a straight-line program: sympy's cse splits the
+velocity into shared pieces, and the gradient is the chain rule applied piece by
+piece (each piece differentiated once, in terms of the pieces before it). That
+keeps the symbolic work linear in the size of the formula; differentiating a large
+unsimplified formula as a whole and running cse's algebraic preprocessing on the
+result took tens of seconds for the sphere benchmark flows. Small formulas keep
+their ``velocity`` and ``gradient`` printed the established way (whole-expression
+derivatives, cse with the basic optimizations), so their numbers do not change;
+formulas above :data:`LARGE_OPS` operations get those two from the program too.
 """
 
 from __future__ import annotations
@@ -10,6 +21,7 @@ from __future__ import annotations
 from typing import Sequence
 
 import sympy as sp
+from sympy.printing.precedence import PRECEDENCE
 from sympy.printing.pycode import PythonCodePrinter
 
 X, Y, Z, T = sp.symbols("x y z t", real=True)
@@ -41,6 +53,16 @@ class _NumbaPrinter(PythonCodePrinter):
             return "*".join([b] * int(exp))
         return super()._print_Pow(expr, rational=rational)
 
+    def _print_Mul(self, expr):
+        # sympy prints a lone denominator factor b**n unparenthesized after "/", which with the
+        # products above read a/b*b (= a) for a/b**2: give such a factor its parentheses
+        inverse = [f for f in expr.args if f.is_Pow and f.exp.is_Rational and f.exp.is_negative]
+        if len(inverse) == 1 and inverse[0].exp.is_Integer and -4 <= int(inverse[0].exp) <= -2:
+            base, n = inverse[0].base, -int(inverse[0].exp)
+            num = self.parenthesize(expr / inverse[0], PRECEDENCE["Mul"], strict=False)
+            return f"{num}/({'*'.join([self.parenthesize(base, 100)] * n)})"
+        return super()._print_Mul(expr)
+
 
 def _print(expr) -> str:
     printer = _NumbaPrinter({"fully_qualified_modules": True, "standard": "python3"})
@@ -67,11 +89,76 @@ def velocity_gradient_source(
         Parameter symbols, in the order of the parameter vector ``p``.
     """
     exprs = [_expr(e) for e in exprs]
-    grads = [sp.diff(e, c) for e in exprs for c in COORDS]
-    out = []
-    for name, group in (("velocity", exprs), ("gradient", grads)):
-        out += _function(name, group, params)
+    steps, outputs = chain_rule_program(exprs)
+    if sum(sp.count_ops(e) for e in exprs) > LARGE_OPS:
+        out = _program_function("velocity", steps, outputs[:3], params)
+        out += _program_function("gradient", steps, outputs[3:], params)
+    else:
+        grads = [sp.diff(e, c) for e in exprs for c in COORDS]
+        out = []
+        for name, group in (("velocity", exprs), ("gradient", grads)):
+            out += _function(name, group, params)
+    out += _program_function("velocity_gradient", steps, outputs, params)
     return "\n".join(out) + "\n" + splitting_source(exprs, params)
+
+
+#: Formulas with more operations than this (sympy's count_ops over the three components) get
+#: ``velocity`` and ``gradient`` from the chain-rule program too (whole-expression derivatives
+#: and cse's preprocessing grow much faster than linearly with the size).
+LARGE_OPS = 400
+
+
+def chain_rule_program(exprs: Sequence[sp.Expr]) -> tuple[list, list]:
+    """Straight-line program for the velocity and its gradient, derivatives taken on shared pieces.
+
+    Returns
+    -------
+    steps : list of (Symbol, Expr)
+        Assignments in order: the cse pieces of the velocity, each followed by its
+        non-zero derivatives along x, y, z (symbols ``_d<k>_<j>``).
+    outputs : list of 12 Expr
+        u, v, w and the row-major gradient entries du_i/dx_j, in terms of the steps.
+    """
+    pieces, reduced = sp.cse(list(exprs), symbols=sp.numbered_symbols("_c"), optimizations=None)
+    deriv: dict = {(c, j): (sp.Integer(1) if j == i else sp.Integer(0))
+                   for i, c in enumerate(COORDS) for j in range(3)}
+    steps = []
+
+    def d(expr, j):
+        total = sp.Integer(0)
+        for q in expr.free_symbols:
+            dq = deriv.get((q, j), 0)
+            if dq != 0:
+                total += sp.diff(expr, q) * dq
+        return total
+
+    for k, (sym, val) in enumerate(pieces):
+        steps.append((sym, val))
+        for j in range(3):
+            dv = d(val, j)
+            if dv == 0 or dv.is_Atom:
+                deriv[(sym, j)] = dv
+            else:
+                dsym = sp.Symbol(f"_d{k}_{j}")
+                steps.append((dsym, dv))
+                deriv[(sym, j)] = dsym
+    outputs = list(reduced) + [d(e, j) for e in reduced for j in range(3)]
+    return steps, outputs
+
+
+def _program_function(name: str, steps: list, outputs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> list[str]:
+    """Lines of a jitted ``name(x, y, z, t, _params)`` running the steps ``outputs`` needs."""
+    need = set().union(*(e.free_symbols for e in outputs)) if outputs else set()
+    keep = []
+    for sym, val in reversed(steps):  # drop steps no output depends on (e.g. derivatives in velocity)
+        if sym in need:
+            keep.append((sym, val))
+            need |= val.free_symbols
+    lines = [f"    {sym.name} = {PARAMS}[{i}]" for i, sym in enumerate(params)]
+    lines += [f"    {sym} = {_print(val)}" for sym, val in reversed(keep)]
+    ret = ", ".join(_print(e) for e in outputs)
+    return ["@njit(cache=CACHE, error_model=\"numpy\")", f"def {name}(x, y, z, t, {PARAMS}):", *lines,
+            f"    return ({ret},)", ""]
 
 
 def _function(name: str, exprs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> list[str]:
@@ -123,6 +210,12 @@ def split_fields(exprs: Sequence[sp.Expr]) -> tuple[tuple, tuple]:
         If f is not divergence-free or sympy finds no closed-form antiderivative.
     """
     f1, f2, f3 = (_expr(e) for e in exprs)
+    ops = sum(sp.count_ops(e) for e in (f1, f2, f3))
+    if ops > LARGE_OPS and not all(e.is_polynomial(*COORDS) for e in (f1, f2, f3)):
+        # proving div u = 0 and searching an antiderivative of a large non-polynomial formula
+        # took minutes in sympy (a sphere benchmark flow: 150 s), so it is not attempted
+        raise SplitUnavailable(f"the formula is too large for a closed-form split ({ops} operations, "
+                               f"non-polynomial; up to {LARGE_OPS} are tried)")
     div = sum(sp.diff(e, c) for e, c in zip((f1, f2, f3), COORDS))
     if _clearly_nonzero(div):  # cheap numeric test first: expanding a large field can take very long
         raise SplitUnavailable("the field is not divergence-free (div u is non-zero at a test point)")
