@@ -557,3 +557,100 @@ def test_flux_tube_lines_link_the_axis_lk_plus_twist_times():
     assert T.linking_number(rb.points, a).integer == -5 and T.linking_number(a, b).integer == -5
     with pytest.raises(FlowkitError, match="whole number"):
         flux_tube_lines(rb, 0.02, twist=0.5)
+
+
+# -- field lines of a ball (sphere-dynamo) mode ---------------------------------------------------------
+def _free_decay_result(L=3, N=16):
+    """A ball 'result' built from closed forms: the poloidal dipole S_10 = j_1(pi r) and the toroidal
+    T_11 = j_1(k r), k = 4.4934... the first zero of j_1 (free-decay modes of the insulating sphere,
+    rates pi^2 and k^2; Proc. R. Soc. Lond. A 425, 1989, 407, cited from memory)."""
+    from types import SimpleNamespace
+
+    from flowkit.dynamo.sphere.basis import RadialBasis
+
+    r = RadialBasis(N, L).r
+    k1 = scipy.optimize.brentq(lambda x: scipy.special.spherical_jn(1, x), 4, 5)
+    mode = np.zeros((2, 2, 2, L + 1, N))
+    mode[0, 1, 0, 1] = scipy.special.spherical_jn(1, math.pi * r)  # S, m = 0, l = 1
+    mode[0, 0, 1, 1] = scipy.special.spherical_jn(1, k1 * r)  # T, m = 1, l = 1
+    return SimpleNamespace(mode=mode, orders=[0, 1], domain="ball", resolution=[L, N], rm=None), k1
+
+
+def _closed_form_field(k1):
+    """B = curl curl(S x) + curl(T x) in Cartesian sympy: S = j_1(pi r) Y_10 inside, j_1(pi) r^-2 Y_10
+    outside (the potential dipole); T = j_1(k1 r) Re Y_11 inside, 0 outside. Y_10 = sqrt(3/4pi) z/r,
+    Re Y_11 = sqrt(3/8pi) x/r (orthonormal, no Condon-Shortley phase)."""
+    x, y, z = sp.symbols("x y z", real=True)
+    X = sp.Matrix([x, y, z])
+    r = sp.sqrt(x * x + y * y + z * z)
+    j1 = lambda a: sp.sin(a) / a ** 2 - sp.cos(a) / a  # noqa: E731
+    curl = lambda F: sp.Matrix([sp.diff(F[2], y) - sp.diff(F[1], z), sp.diff(F[0], z) - sp.diff(F[2], x),  # noqa: E731
+                                sp.diff(F[1], x) - sp.diff(F[0], y)])
+    y10, y11 = sp.sqrt(sp.Rational(3, 4) / sp.pi) * z / r, sp.sqrt(sp.Rational(3, 8) / sp.pi) * x / r
+    inside = curl(curl(j1(sp.pi * r) * y10 * X)) + curl(j1(k1 * r) * y11 * X)
+    outside = curl(curl(j1(sp.pi) * r ** -2 * y10 * X))
+    return sp.lambdify((x, y, z), inside, "numpy"), sp.lambdify((x, y, z), outside, "numpy")
+
+
+def test_ball_mode_field_against_closed_forms_and_its_potential_exterior():
+    """evaluate_field against the free-decay closed forms (inside and the potential dipole outside),
+    against the sphere solver's own mode_field inside, divergence-free and curl-free outside by central
+    differences, and continuous across r = 1 (all components: the insulating condition)."""
+    from flowkit.dynamo.sphere.fieldeval import evaluate_field
+    from flowkit.dynamo.sphere.mode import mode_field
+
+    res, k1 = _free_decay_result()
+    fin, fout = _closed_form_field(k1)
+    rng = np.random.default_rng(2)
+    d = rng.normal(size=(40, 3))
+    d /= np.linalg.norm(d, axis=1)[:, None]
+    Xin, Xout = d * rng.uniform(0.05, 0.98, (40, 1)), d * rng.uniform(1.02, 3.0, (40, 1))
+    for X, f in ((Xin, fin), (Xout, fout)):
+        ref = np.array([np.ravel(f(*p)) for p in X])
+        assert np.abs(evaluate_field(res, X) - ref).max() < 1e-10 * np.abs(ref).max()
+    assert np.allclose(evaluate_field(res, Xin), mode_field(res, Xin), atol=1e-14)
+    h = 1e-5
+    for X in (Xin, Xout):
+        J = np.stack([(evaluate_field(res, X + h * e) - evaluate_field(res, X - h * e)) / (2 * h) for e in np.eye(3)], -1)
+        scale = np.abs(J).max()
+        assert np.abs(np.trace(J, axis1=1, axis2=2)).max() < 1e-7 * scale
+    curl_out = np.stack([J[:, 2, 1] - J[:, 1, 2], J[:, 0, 2] - J[:, 2, 0], J[:, 1, 0] - J[:, 0, 1]], 1)
+    assert np.abs(curl_out).max() < 1e-7 * scale
+    a, b = evaluate_field(res, d * (1 - 1e-9)), evaluate_field(res, d * (1 + 1e-9))
+    assert np.abs(a - b).max() < 1e-7 * np.abs(a).max()
+    with pytest.raises(FlowkitError, match="ball dynamo result"):
+        evaluate_field(flowkit_growth_box(), Xin)
+
+
+def flowkit_growth_box():
+    from types import SimpleNamespace
+    return SimpleNamespace(mode=np.zeros((2, 3, 4, 4, 4)), domain="box")
+
+
+def test_ball_mode_as_a_flow_sections_and_exact_gradient():
+    """The compiled flow is the evaluator's field everywhere (inside and outside); its complex-step
+    gradient matches central differences and is traceless to round-off (div B = 0 of every harmonic);
+    a Poincaré section of the field lines of a t2s2 mode runs on it."""
+    import flowkit
+    from flowkit.dynamo.sphere import benchmark_flow
+    from flowkit.dynamo.sphere.fieldeval import evaluate_field
+    from flowkit.sections.geometry import Plane
+    from flowkit.topology.fieldlines import mode_field_flow
+
+    res, _ = _free_decay_result()
+    fl = mode_field_flow(res, energy_fraction=1.0)
+    assert fl.domain == "unbounded" and len(fl.family.structure["harmonics"]["kept"]) == 2
+    X = np.random.default_rng(3).uniform(-1.6, 1.6, (60, 3))
+    assert np.allclose(fl.velocity(X), evaluate_field(res, X), atol=1e-14, rtol=0)
+    G, h = fl.gradient(X), 1e-6
+    Gn = np.stack([(evaluate_field(res, X + h * e) - evaluate_field(res, X - h * e)) / (2 * h) for e in np.eye(3)], -1)
+    assert np.abs(G - Gn).max() < 1e-7 * np.abs(G).max()
+    assert np.abs(np.trace(G, axis1=1, axis2=2)).max() < 1e-12 * np.abs(G).max()
+    mode = flowkit.growth_rate(benchmark_flow("t2s2"), rm=60, resolution=(8, 8), keep_mode=True,
+                               check_resolution=None)
+    ml = mode_field_flow(mode)
+    sec = flowkit.poincare_section(ml, [[0.3, 0.0, 0.2], [0.5, 0.0, -0.1]], Plane((0, 1, 0), 0.0), crossings=20)
+    assert sec.points.shape[0] > 0 and np.all(np.isfinite(sec.points))
+    # Liouville: the exponents of a solenoidal field sum to the mean of div B = 0 (exact identity)
+    spec = flowkit.lyapunov_spectrum(ml, [0.3, 0.0, 0.2], time=30.0, intervals=60, blocks=6)
+    assert abs(np.sum(spec.exponents)) < 1e-6 * max(1.0, np.abs(spec.exponents).max())

@@ -13,7 +13,8 @@ becomes a :func:`flowkit.custom_flow` on the periodic box with trigonometric
 formulas, compiled like any flow, with an exact gradient. Integrating it, "time"
 is the field-line parameter (dx/dtau = B).
 
-Ball modes (the sphere dynamo) are not covered here.
+Ball modes (the sphere dynamo) go to :func:`flowkit.topology.ballfield.ball_field_flow`
+(:func:`mode_field_flow` dispatches on the result's domain).
 """
 
 from __future__ import annotations
@@ -106,7 +107,11 @@ def gradient(x, y, z, t, p):
 
 def mode_field_flow(result, *, energy_fraction: float = 0.99, max_terms: int = 400, phase: float | None = None,
                     name: str = "dynamo-field"):
-    """A flow on the periodic box whose velocity is the box dynamo mode's magnetic field B.
+    """A flow whose velocity is a dynamo mode's magnetic field B (box: periodic; ball: all of space).
+
+    A ball result (``result.domain == "ball"``) is handed to
+    :func:`flowkit.topology.ballfield.ball_field_flow` (``max_terms`` does not apply;
+    ``phase`` 0 is the real part of the mode).
 
     Parameters
     ----------
@@ -128,6 +133,10 @@ def mode_field_flow(result, *, energy_fraction: float = 0.99, max_terms: int = 4
     """
     from flowkit.flows.base import Flow, FlowFamily
 
+    if getattr(result, "domain", "box") == "ball":
+        from flowkit.topology.ballfield import ball_field_flow
+
+        return ball_field_flow(result, energy_fraction=energy_fraction, phase=phase or 0.0)
     B = result if isinstance(result, np.ndarray) else mode_field(result, phase)
     k, a, b, frac = fourier_terms(np.asarray(B, dtype=np.float64), energy_fraction, max_terms)
     p = np.concatenate([[float(len(k))], np.hstack([k.astype(float), a, b]).ravel()])
