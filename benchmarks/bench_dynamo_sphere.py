@@ -3,18 +3,23 @@
 1. One application of the ball induction operator (all orders coupled, stf at L = N = 16)
    against the spherical-harmonic transforms it needs (one vector synthesis + one
    vector analysis of the same sizes), best of several, in the same run.
-2. One eigenvalue of an axisymmetric flow (t2s2, Rm = 54, m = 1) at L = N = 24, and of
-   stf (all orders coupled) at the resolution its convergence study needs.
+2. One eigenvalue of an axisymmetric flow (t2s2, Rm = 54, m = 1) at L = N = 24: first call
+   (builds the parts D and K), a second Rm (parts kept: D + Rm K only), and the default
+   call (orders m = 0..4 and the resolution check); the same before the parts were kept
+   is not re-measured here (the README gives the old figure).
 3. Convergence tables (L, N, growth rate, frequency) of the benchmark flows t2s2 at
    Rm = 54 and t1s1 at Rm = 155 (Proc. R. Soc. Lond. A 425, 1989, 407-429; onsets near
    54 and 155 cited from memory), and their critical Rm at the finest resolution.
-4. The critical Rm of stf at rotation 0.1 and 0.3 (new; no published value) with the
-   resolution table.
+4. The onset of stf (all orders coupled) at rotation 0.3 and the growth rates at rotation
+   0.1 (new; no published value): per resolution, secant iterations on the growth rate
+   (Rm_c and the seconds per eigenvalue).
 
-Standalone: ``python benchmarks/bench_dynamo_sphere.py [--quick]``; writes
-benchmarks/results/dynamo_sphere.json. The machine may be shared (load recorded).
+Standalone: ``python benchmarks/bench_dynamo_sphere.py [--quick] [--stf-only]``; writes
+benchmarks/results/dynamo_sphere.json (``dynamo_sphere_stf.json`` for ``--stf-only``).
+The machine may be shared (load recorded with every part).
 """
 
+import os
 import sys
 import time
 from pathlib import Path
@@ -29,6 +34,10 @@ from flowkit.dynamo import benchmark_flow, critical_rm, growth_rate  # noqa: E40
 from flowkit.dynamo.sphere import BallOperator  # noqa: E402
 
 
+def load() -> list:
+    return [round(v, 2) for v in os.getloadavg()]
+
+
 def operator_vs_transforms(lmax: int, n: int) -> dict:
     op = BallOperator(flowkit.flow("stf", rotation=0.3), 10.0, lmax, n)
     rng = np.random.default_rng(0)
@@ -41,42 +50,106 @@ def operator_vs_transforms(lmax: int, n: int) -> dict:
     t_anal = best_of(lambda: op.grid.analyse_vector(*fields), 5)
     return {"L": lmax, "N": n, "grid": [n, op.grid.n_theta, op.grid.n_phi], "dof": op.dof,
             "apply_s": t_apply, "synthesis_s": t_synth, "analysis_s": t_anal,
-            "ratio_to_transforms": t_apply / (t_synth + t_anal)}
+            "ratio_to_transforms": t_apply / (t_synth + t_anal), "load": load()}
 
 
-def timed(flow, rm, res, **kw) -> dict:
+def timed(flow, rm, res, check=None, **kw) -> dict:
     t0 = time.perf_counter()
-    r = growth_rate(flow, rm, res, check_resolution=None, keep_mode=False, **kw)
-    return {"resolution": list(res), "growth_rate": r.growth_rate, "frequency": r.frequency,
-            "m": r.diagnostics.get("m"), "seconds": time.perf_counter() - t0}
+    r = growth_rate(flow, rm, res, check_resolution=check, keep_mode=False, **kw)
+    return {"resolution": list(res), "rm": rm, "growth_rate": r.growth_rate, "frequency": r.frequency,
+            "m": r.diagnostics.get("m"), "families": r.diagnostics.get("families"),
+            "seconds": time.perf_counter() - t0, "load": load(),
+            "eigenvalue": r.diagnostics.get("eigenvalue")}
 
 
 def table(flow, rm, ladder, **kw) -> list:
     return [timed(flow, rm, res, **kw) for res in ladder]
 
 
-def main(quick: bool) -> None:
+def stf_onset(rotation: float, ladder, rm_pair, iterations: int = 5, rm_tol: float = 0.02) -> list:
+    """Per resolution: growth rates at ``rm_pair`` and secant steps to the zero of the growth rate."""
+    f = flowkit.flow("stf", rotation=rotation)
+    rows, guess = [], None
+    for res in ladder:
+        evals = []
+
+        def sigma(rm):
+            nonlocal guess
+            kw = {} if guess is None else {"guesses": [guess]}
+            out = timed(f, rm, res, **kw)
+            lam = out["eigenvalue"]
+            guess = complex(lam[0], abs(lam[1]))
+            evals.append(out)
+            print(rotation, res, rm, out["growth_rate"], f"{out['seconds']:.1f}s", out["load"], flush=True)
+            return out["growth_rate"]
+
+        a, b = rm_pair
+        sa, sb = sigma(a), sigma(b)
+        root = None
+        for _ in range(iterations):
+            if sb == sa:
+                break
+            c = b - sb * (b - a) / (sb - sa)
+            if not (0.5 * a < c < 2 * b):
+                break
+            a, sa, b, sb = b, sb, c, sigma(c)
+            if abs(b - a) < rm_tol:
+                root = b
+                break
+        below = [e["rm"] for e in evals if e["growth_rate"] < 0]
+        above = [e["rm"] for e in evals if e["growth_rate"] > 0]
+        rows.append({"resolution": list(res), "rm_critical": root, "evaluations": evals,
+                     "bracketed": bool(below and above and max(below) < min(above)),
+                     "seconds_per_eigenvalue": float(np.mean([e["seconds"] for e in evals]))})
+    return rows
+
+
+def stf_rates(rotation: float, ladder, rms) -> list:
+    f = flowkit.flow("stf", rotation=rotation)
+    rows = []
+    for res in ladder:
+        for rm in rms:
+            out = timed(f, rm, res)
+            print(rotation, res, rm, out["growth_rate"], f"{out['seconds']:.1f}s", out["load"], flush=True)
+            rows.append(out)
+    return rows
+
+
+def stf_study(quick: bool) -> dict:
+    ladder = [(8, 8), (10, 10)] if quick else [(12, 12), (14, 14), (16, 16), (18, 18)]
+    out = {"stf_0.3_onset": stf_onset(0.3, ladder, (136.0, 142.0))}
+    save("dynamo_sphere_stf", out)  # keep the onset table if the rates below are interrupted
+    out["stf_0.1_rates"] = stf_rates(0.1, ladder[:3], (160.0, 240.0, 320.0))
+    return out
+
+
+def main(quick: bool, stf_only: bool) -> None:
+    if stf_only:
+        save("dynamo_sphere_stf", stf_study(quick))
+        return
     out = {"operator": operator_vs_transforms(12 if quick else 16, 12 if quick else 16)}
     t2s2, t1s1 = benchmark_flow("t2s2"), benchmark_flow("t1s1")
     timed(t2s2, 54.0, (8, 8), m=1)  # compile the flow's kernels outside the timings
-    out["axisymmetric_L24"] = timed(t2s2, 54.0, (24, 24), m=1)
+    out["axisymmetric_L24"] = {"first": timed(t2s2, 54.0, (24, 24), m=1),
+                               "second_rm": timed(t2s2, 55.0, (24, 24), m=1),
+                               "default_call": timed(t2s2, 56.0, (24, 24), check="auto")}
+    print(out["axisymmetric_L24"], flush=True)
     ladder = [(12, 12), (16, 16), (20, 20)] if quick else [(12, 12), (16, 16), (20, 20), (24, 24), (28, 28)]
-    out["t2s2_rm54"] = table(t2s2, 54.0, ladder)
+    out["t2s2_rm54"] = table(t2s2, 54.0, ladder, m=1)
     out["t1s1_rm155"] = table(t1s1, 155.0, ladder, m=1)
     fine = ladder[-2]
     for name, flow, rms in (("t2s2", t2s2, [50.0, 58.0]), ("t1s1", t1s1, [145.0, 165.0])):
         c = critical_rm(flow, rms, resolution=fine, progress=False, xtol=1e-4, m=1)
         out[f"{name}_critical"] = {"rm_critical": c.rm_critical, "uncertainty": c.uncertainty,
-                                   "frequency": c.frequency, "resolution": list(fine), "seconds": c.seconds}
-    stf_ladder = [(8, 8), (10, 10), (12, 12)] if quick else [(8, 8), (10, 10), (12, 12), (14, 14)]
-    for rot in (0.1, 0.3):
-        f = flowkit.flow("stf", rotation=rot)
-        out[f"stf_{rot}"] = {"table_rm": None}
-        out[f"stf_{rot}"]["scan"] = [timed(f, rm, stf_ladder[-1]) for rm in (2.0, 5.0, 10.0, 20.0)]
-        print(rot, out[f"stf_{rot}"]["scan"], flush=True)
-    print(out)
+                                   "frequency": c.frequency, "resolution": list(fine), "seconds": c.seconds,
+                                   "load": load()}
+    print({k: out[k] for k in out if k.endswith("critical")}, flush=True)
+    res = (8, 8) if quick else (14, 14)
+    stf = flowkit.flow("stf", rotation=0.3)
+    out["stf_eigenvalue"] = {"first": timed(stf, 140.0, res), "second_rm": timed(stf, 141.0, res)}
+    print(out["stf_eigenvalue"], flush=True)
     save("dynamo_sphere", out)
 
 
 if __name__ == "__main__":
-    main("--quick" in sys.argv[1:])
+    main("--quick" in sys.argv[1:], "--stf-only" in sys.argv[1:])

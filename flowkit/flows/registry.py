@@ -16,11 +16,14 @@ from flowkit.flows.base import Flow, FlowFamily
 
 def _builders() -> dict[str, tuple[Callable[[], FlowFamily], str]]:
     from flowkit.flows import map_presets  # noqa: F401  (registers the discrete-time map presets in EXTRA)
-    from flowkit.flows import periodic, sphere, systems
+    from flowkit.flows import periodic, sphere, sphere_benchmarks, systems
 
     return {
         "stf": (sphere.stf_family, "stretch-twist-fold Stokes flow in the sphere + rotation about y"),
         "hill": (sphere.hill_family, "Hill's spherical vortex with optional swirl"),
+        **{name: (lambda n=name: sphere_benchmarks.benchmark_family(n),
+                  f"sphere-dynamo benchmark flow {name} (Proc. R. Soc. Lond. A 425, 1989)")
+           for name in sphere_benchmarks.BENCHMARK_FLOWS},
         "abc": (periodic.abc_family, "ABC (Arnold-Beltrami-Childress) flow, 2*pi-periodic"),
         "roberts": (periodic.roberts_family, "Roberts cell flow, 2*pi-periodic, z-independent"),
         "circular": (periodic.circular_family, "circularly polarized time-periodic dynamo flow"),

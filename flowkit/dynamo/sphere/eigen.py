@@ -36,12 +36,14 @@ def _pack_out(op, lam, vec, converged, message, **extra):
 #: Largest family block solved by dense LAPACK ``eig`` (all eigenvalues; ~0.1 s at this size).
 DENSE_MAX = 800
 #: Up to this many unknowns a shifted block is factorised densely (faster than SuperLU's fill-in).
-DENSE_LU_MAX = 6000
+DENSE_LU_MAX = 9000
 
 
 def guesses_from_coarse(op, count: int = 2) -> list[complex]:
-    """Leading eigenvalues of the same problem at a coarse resolution (dense ``eig``): shifts for ARPACK."""
+    """Leading eigenvalues of the same problem at a coarse resolution (dense ``eig`` of its real family
+    blocks, parts kept across calls): shifts for ARPACK."""
     from flowkit.dynamo.sphere.operator import BallOperator
+    from flowkit.dynamo.sphere.parts import operator_parts, real_blocks
 
     lmin = max(2, op.facts.degree + 2)
     if op.m is None:
@@ -49,9 +51,10 @@ def guesses_from_coarse(op, count: int = 2) -> list[complex]:
     else:
         lc, nc = max(lmin, min(op.lmax, 14)), min(op.n, 14)
     coarse = BallOperator(op.flow, op.rm, lc, nc, m=op.m, facts=op.facts)
-    if coarse.dof > 2 * DENSE_MAX:
+    blocks, _ = real_blocks(coarse, operator_parts(coarse))
+    if max(b.shape[0] for _, b in blocks) > 2 * DENSE_MAX:
         return []
-    vals = np.linalg.eigvals(coarse.matrix())
+    vals = np.concatenate([np.linalg.eigvals(b.toarray() if sps.issparse(b) else b) for _, b in blocks])
     vals = vals[np.argsort(-vals.real)]
     out: list[complex] = []
     for v in vals:
@@ -91,10 +94,11 @@ def arpack_near(A, solve_factory, shifts, nev, ncv, tol, maxiter):
 def lu_factory(M, s):
     """``x -> (M - s I)^-1 x``: dense LU up to :data:`DENSE_LU_MAX` unknowns, SuperLU beyond."""
     n = M.shape[0]
-    if n <= DENSE_LU_MAX or not sps.issparse(M):
-        dense = M.toarray() if sps.issparse(M) else M
-        lu = lu_factor(dense - s * np.eye(n, dtype=dense.dtype))
-        return lambda x: lu_solve(lu, x)
+    if not sps.issparse(M):
+        shifted = M.astype(np.result_type(M.dtype, type(s)), copy=True)
+        shifted.flat[:: n + 1] -= s
+        lu = lu_factor(shifted, overwrite_a=True, check_finite=False)
+        return lambda x: lu_solve(lu, x, check_finite=False)
     return splu((M - s * sps.identity(n, dtype=M.dtype, format="csc")).tocsc()).solve
 
 
@@ -125,6 +129,8 @@ def block_eigs(B, guesses, nev, ncv, tol, maxiter, shift=None):
         order = np.argsort(-vals.real)
         return vals[order], vecs[:, order], True, "", []
     shifts = merge_shifts(guesses, np.isrealobj(B), shift)
+    if sps.issparse(B) and n <= DENSE_LU_MAX:
+        B = B.toarray()  # once for all shifts: a dense LU is faster than SuperLU's fill-in at these sizes
     vals, vecs, ok, msg = arpack_near(B, lu_factory, shifts, nev, ncv, tol, maxiter)
     return vals, vecs, ok, msg, shifts
 

@@ -56,11 +56,13 @@ def diffusion_matrix(op) -> sps.csr_matrix:
 
 def induction_dense(op) -> np.ndarray:
     """``K`` (induction at ``Rm = 1``) as a dense matrix: the induction term on all basis vectors."""
-    eye = np.eye(op.dof, dtype=complex)
     cols = []
     step = max(1, int(2e7 // max(1, op.n * op.grid.n_theta * op.grid.n_phi * 16)))
     for i in range(0, op.dof, step):
-        T, S = op.unpack(eye[i:i + step])
+        k = min(step, op.dof - i)
+        unit = np.zeros((k, op.dof), complex)
+        unit[np.arange(k), i + np.arange(k)] = 1.0
+        T, S = op.unpack(unit)
         cols.append(op.pack(*op.induction(T, S)))
     return np.concatenate(cols, axis=0).T / op.rm
 
