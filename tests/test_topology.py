@@ -654,3 +654,70 @@ def test_ball_mode_as_a_flow_sections_and_exact_gradient():
     # Liouville: the exponents of a solenoidal field sum to the mean of div B = 0 (exact identity)
     spec = flowkit.lyapunov_spectrum(ml, [0.3, 0.0, 0.2], time=30.0, intervals=60, blocks=6)
     assert abs(np.sum(spec.exponents)) < 1e-6 * max(1.0, np.abs(spec.exponents).max())
+
+
+def test_relative_helicity_of_a_ball_field_against_cartesian_quadrature():
+    """Closed-form ball field (insulating conditions hold: T(1) = 0, S'(1) + (l+1) S(1) = 0) with
+    harmonics (l, m) = (1, 0) poloidal and toroidal, (2, 1) both with complex coefficients, (1, 1)
+    toroidal only. Reference: A = T x + curl(S x) and B in Cartesian sympy (curl A = B checked at
+    points), int A . B and int |B|^2 over the ball and over r > 1 by product Gauss rules. The relative
+    helicity is gauge independent (J. Fluid Mech. 147, 1984, 133; cited from memory)."""
+    from types import SimpleNamespace
+
+    from flowkit.dynamo.sphere.basis import RadialBasis
+    from flowkit.topology.helicity import mode_helicity
+
+    L, N = 2, 12
+    rn = RadialBasis(N, L).r
+    prof = {("S", 0, 1): (1.0, lambda r: r * (5 - 3 * r ** 2)), ("T", 0, 1): (1.0, lambda r: r * (1 - r ** 2)),
+            ("S", 1, 2): (1 + 0.5j, lambda r: r ** 2 * (7 - 5 * r ** 2)),
+            ("T", 1, 2): (0.3 - 0.2j, lambda r: r ** 2 * (1 - r ** 2)), ("T", 1, 1): (0.7j, lambda r: r * (1 - r ** 4))}
+    mode = np.zeros((2, 2, 2, L + 1, N))
+    for (kind, i, l), (c, f) in prof.items():
+        mode[0, int(kind == "S"), i, l] = (c * f(rn)).real
+        mode[1, int(kind == "S"), i, l] = (c * f(rn)).imag
+    res = SimpleNamespace(mode=mode, orders=[0, 1], domain="ball", resolution=[L, N], rm=None, provenance={})
+    h = mode_helicity(res)
+    assert h.quantity == "relative magnetic"
+
+    x, y, z = sp.symbols("x y z", real=True)
+    X = sp.Matrix([x, y, z])
+    r = sp.sqrt(x * x + y * y + z * z)
+    Y = {(0, 1): sp.sqrt(3 / (4 * sp.pi)) * z / r, (1, 1): sp.sqrt(3 / (8 * sp.pi)) * (x + sp.I * y) / r,
+         (1, 2): sp.sqrt(15 / (8 * sp.pi)) * z * (x + sp.I * y) / r ** 2}
+    R = sp.Symbol("R", positive=True)
+
+    def scalar(kind, outside):
+        tot = 0
+        for (k, i, l), (c, f) in prof.items():
+            if k == kind:
+                radial = (f(1) * r ** -(l + 1) if kind == "S" else 0) if outside else f(R).subs(R, r)
+                tot += sp.re(sp.expand(sp.nsimplify(c) * radial * Y[(i, l)]))
+        return tot
+
+    curl = lambda F: sp.Matrix([sp.diff(F[2], y) - sp.diff(F[1], z), sp.diff(F[0], z) - sp.diff(F[2], x),  # noqa: E731
+                                sp.diff(F[1], x) - sp.diff(F[0], y)])
+    totals = {}
+    for outside in (False, True):
+        T, S = scalar("T", outside), scalar("S", outside)
+        A = T * X + curl(S * X)
+        B = curl(T * X) + curl(curl(S * X))
+        dens = sp.lambdify((x, y, z), [A.dot(B), B.dot(B)], "numpy")
+        pt = {x: 0.3, y: -0.2, z: 0.5} if not outside else {x: 0.9, y: -0.8, z: 0.7}
+        assert float(sp.Abs((curl(A) - B).subs(pt).norm())) < 1e-12
+        u, wu = np.polynomial.legendre.leggauss(24)
+        c, wc = np.polynomial.legendre.leggauss(16)
+        ph = 2 * np.pi * np.arange(16) / 16
+        s_ = 0.5 * (u + 1)  # outside r = 1 / s: int_1^inf f r^2 dr = int_0^1 f(1/s) s^-4 ds
+        rr, ww = (s_, 0.5 * wu * s_ ** 2) if not outside else (1 / s_, 0.5 * wu * s_ ** -4)
+        Rg, Cg, Pg = np.meshgrid(rr, c, ph, indexing="ij")
+        Wg = ww[:, None, None] * wc[None, :, None] * (2 * np.pi / 16)
+        Sg = np.sqrt(1 - Cg ** 2)
+        vals = dens(Rg * Sg * np.cos(Pg), Rg * Sg * np.sin(Pg), Rg * Cg)
+        totals[outside] = [float(np.sum(np.broadcast_to(v, Rg.shape) * Wg)) for v in vals]
+    hel = totals[False][0] + totals[True][0]
+    assert abs(totals[True][0]) < 1e-12 and abs(hel) > 0.1
+    assert h.value == pytest.approx(hel, rel=1e-10)
+    assert h.energy == pytest.approx(totals[False][1] + totals[True][1], rel=1e-8)
+    with pytest.raises(FlowkitError, match="relative magnetic helicity only"):
+        mode_helicity(res, "current")

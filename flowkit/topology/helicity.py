@@ -239,6 +239,9 @@ def mode_field(result, phase: float | None = None) -> np.ndarray:
 def mode_helicity(result, quantity: str = "magnetic", phase: float | None = None):
     """Magnetic (int A . B dV) or current (int B . curl B dV) helicity of a box dynamo mode.
 
+    A ball mode gets its relative magnetic helicity with the potential-field exterior
+    (:func:`flowkit.topology.ballhelicity.ball_helicity`; ``phase`` 0 is the real part).
+
     Parameters
     ----------
     result : GrowthResult or (3, N, N, N) array
@@ -257,6 +260,12 @@ def mode_helicity(result, quantity: str = "magnetic", phase: float | None = None
     from flowkit.topology.results import Helicity
 
     one_of(quantity, "quantity", ("magnetic", "current"))
+    if getattr(result, "domain", "box") == "ball":
+        if quantity != "magnetic":
+            raise FlowkitError("ball modes have the relative magnetic helicity only: use quantity='magnetic'")
+        from flowkit.topology.ballhelicity import ball_helicity
+
+        return ball_helicity(result, phase=phase or 0.0)
     B = result if isinstance(result, np.ndarray) else mode_field(result, phase)
     out = field_helicities(B)
     notes = []
