@@ -94,8 +94,9 @@ def test_bad_input_is_refused_with_the_fix(still):
     through = flowkit.custom_flow(["1", "0", "0"], domain="ball", name="through")
     with pytest.raises(FlowkitError, match="u.n = 0"):
         growth_rate(through, 10.0, (6, 8))
-    with pytest.raises(FlowkitError, match="`rm` must be a positive"):
-        growth_rate(still, -1.0, (6, 8))
+    for rm in (-1.0, 0.0):
+        with pytest.raises(FlowkitError, match="`rm` must be a positive"):
+            growth_rate(still, rm, (6, 8))
     with pytest.raises(FlowkitError, match="too small for flow 'stf'"):
         growth_rate(flowkit.flow("stf"), 1.0, (2, 8))
     free = flowkit.custom_flow(["-y", "x", "0"], domain="unbounded", name="free")
@@ -103,6 +104,57 @@ def test_bad_input_is_refused_with_the_fix(still):
         growth_rate(free, 1.0, (6, 8))
     with pytest.raises(FlowkitError, match=r"\(L, N\)"):
         growth_rate(still, 1.0, "big")
+    # tangential (u.n = 0) but not band-limited in angle: the transform grid cannot be sized
+    wild = flowkit.custom_flow(["-y*abs(z)", "x*abs(z)", "0"], domain="ball", name="wild")
+    with pytest.raises(FlowkitError, match="not band-limited"):
+        growth_rate(wild, 1.0, (6, 8))
+    with pytest.raises(FlowkitError, match="max_resolution"):
+        growth_rate(still, 1.0, "auto", max_resolution=(8, 8))
+
+
+def test_benchmark_presets_need_no_dynamo_import():
+    # t1s1/t2s2 are registered with the other flows: a fresh interpreter builds them without flowkit.dynamo
+    import subprocess
+    import sys
+
+    code = ("import sys, flowkit; f = flowkit.flow('t2s2'); g = flowkit.flow('t1s1', epsilon=0.2); "
+            "assert f.domain == 'ball' and g.params[0] == 0.2; assert 'flowkit.dynamo' not in sys.modules")
+    subprocess.run([sys.executable, "-c", code], check=True, timeout=120)
+
+
+def test_real_form_and_families_keep_the_spectrum():
+    # the real cosine/sine form and the split into decoupled families change coordinates only: their
+    # eigenvalues are LAPACK's eigenvalues of the complex operator (scipy.linalg.eigvals); stf has the
+    # half-turn symmetry about y (u(-x, y, -z) = (-u_x, u_y, -u_z), exact), so it splits in two
+    from scipy.linalg import eigvals
+
+    from flowkit.dynamo.sphere.parts import operator_parts, real_blocks
+
+    op = BallOperator(flowkit.flow("stf", rotation=0.3), 40.0, 4, 6)
+    parts = operator_parts(op)
+    blocks, _ = real_blocks(op, parts)
+    assert len(blocks) == 2 and sum(b.shape[0] for _, b in blocks) == op.dof
+    ours = np.concatenate([eigvals(b.toarray()) for _, b in blocks])
+    ref = eigvals(op.matrix())
+    gap = np.abs(ours[:, None] - ref[None, :])
+    assert max(gap.min(axis=0).max(), gap.min(axis=1).max()) < 1e-8 * np.abs(ref).max()
+    # linearity in Rm (exact): D + Rm K from the parts is the operator rebuilt at another Rm
+    other = BallOperator(op.flow, 70.0, 4, 6)
+    np.testing.assert_allclose((parts["D"] + 70.0 * parts["K"]).toarray(), other.matrix(), atol=1e-9 * 70)
+
+
+def test_auto_resolution_climbs_until_two_agree(t2s2):
+    # converged: the reported rate and its check agree within the tolerance, and the finer one agrees
+    # with an independent solve two steps up (Proc. R. Soc. Lond. A 425, 1989: onset near Rm = 54)
+    res = growth_rate(t2s2, 54.0, "auto", m=1, tolerance=0.05)
+    assert res.converged and res.resolution == [16, 16] and res.check["resolution"] == [12, 12]
+    assert abs(res.growth_rate - res.check["growth_rate"]) <= 0.05
+    finer = growth_rate(t2s2, 54.0, (24, 24), m=1, check_resolution=None)
+    assert abs(finer.growth_rate - res.growth_rate) <= 0.05
+    # not reached under the cap: converged=False with the reason and the next step
+    capped = growth_rate(t2s2, 54.0, "auto", m=1, tolerance=1e-6, max_resolution=(12, 12))
+    assert capped.converged is False and capped.resolution == [12, 12]
+    assert capped.reason.startswith("not converged") and "(12, 12)" in capped.reason
 
 
 @pytest.fixture(scope="module")

@@ -71,7 +71,7 @@ BENCHMARK_FLOWS = tuple(_FLOWS)
 
 def benchmark_family(name: str) -> FlowFamily:
     """The family of ``"t1s1"`` or ``"t2s2"`` (registered as presets in :mod:`flowkit.flows.registry`)."""
-    from flowkit.flows.custom import FD_RULE, _FD_CODE
+    from flowkit.flows.custom import _FD_CODE, FD_RULE
 
     degree, eps, profiles, origin = _FLOWS[name]
     code = "import math\n" + _VELOCITY.format(profiles=profiles.rstrip("\n"), origin_z=origin) + _FD_CODE

@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 import scipy.sparse as sps
-from scipy.sparse.csgraph import connected_components, breadth_first_order
+from scipy.sparse.csgraph import breadth_first_order, connected_components
 
 from flowkit.errors import FlowkitError
 

@@ -31,9 +31,31 @@ from flowkit.validation import positive
 BALL_METHODS = ("eigen", "propagator", "march")
 #: Orders scanned by default for an axisymmetric flow: 0 .. min(L, M_SCAN).
 M_SCAN = 4
-#: The ``resolution="auto"`` ladders (axisymmetric flows; all orders coupled).
-AUTO_AXISYMMETRIC = [(12, 12), (16, 16), (20, 20), (24, 24), (28, 28), (32, 32)]
-AUTO_COUPLED = [(8, 8), (10, 10), (12, 12), (14, 14), (16, 16)]
+#: ``resolution="auto"``: the default caps (axisymmetric flows; all orders coupled) and the steps.
+AUTO_CAP_AXISYMMETRIC, AUTO_CAP_COUPLED = (32, 32), (20, 20)
+AUTO_STEP_AXISYMMETRIC, AUTO_STEP_COUPLED = 4, 2
+
+
+def auto_ladder(facts, axisymmetric: bool, cap=None, name: str = "") -> list[tuple[int, int]]:
+    """Resolutions ``(L, N)`` climbed by ``resolution="auto"``: from the flow's minimum (at least 8)
+    up to ``cap`` in equal steps (4 for axisymmetric flows, 2 when all orders couple)."""
+    lmin = max(2, facts.degree + 2)
+    nmin = max(6, (facts.radial_degree or 0) + 4)
+    default = AUTO_CAP_AXISYMMETRIC if axisymmetric else AUTO_CAP_COUPLED
+    cap = default if cap is None else check_ball_resolution(cap, "max_resolution")
+    step = AUTO_STEP_AXISYMMETRIC if axisymmetric else AUTO_STEP_COUPLED
+    start = max(8, lmin, nmin)
+    if min(cap) <= start:
+        raise FlowkitError(f"`max_resolution` = {tuple(cap)} leaves no pair of resolutions to compare for flow "
+                           f"'{name}': the 'auto' ladder starts at ({start}, {start}) in steps of "
+                           f"{step}; use at least max_resolution=({start + step}, {start + step})")
+    ladder, k = [], start
+    while k <= min(cap):
+        ladder.append((min(k, cap[0]), min(k, cap[1])))
+        k += step
+    if ladder[-1] != tuple(cap):
+        ladder.append(tuple(cap))
+    return ladder
 
 
 def _defaults(method: str, steady: bool, axisymmetric: bool) -> dict:
@@ -94,7 +116,7 @@ def _mode(out) -> tuple[np.ndarray, list]:
 
 
 def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen", check_resolution="auto",
-                     tolerance: float = 1e-2, keep_mode: bool = True, m=None, **settings):
+                     tolerance: float = 1e-2, keep_mode: bool = True, m=None, max_resolution=None, **settings):
     """Growth rate and frequency of the leading mode of a ball flow (insulating exterior).
 
     Parameters
@@ -104,9 +126,11 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
     rm : float
         Magnetic Reynolds number; time in units of the magnetic diffusion time ``R^2 / eta``.
     resolution : (L, N) or "auto"
-        Harmonic degree and radial nodes. ``"auto"`` climbs a ladder of resolutions
-        until two successive ones agree within ``tolerance`` (cap ``(32, 32)``, or
-        ``(16, 16)`` when all orders couple).
+        Harmonic degree and radial nodes. ``"auto"`` climbs from ``(8, 8)`` (or the flow's
+        minimum) in steps of 4 (2 when all orders couple) until two successive
+        resolutions agree within ``tolerance``, up to ``max_resolution``; the finer of the
+        last pair is reported, the other is its check. Not reached: ``converged=False``
+        and ``reason`` starting "not converged".
     method : {"eigen", "propagator", "march"}
     check_resolution : "auto", (L, N) or None
         Second resolution of the error estimate (``"auto"``: about ``3/4`` of ``(L, N)``).
@@ -115,6 +139,8 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
         diffusion times; the dipole's free decay rate is ``pi^2``).
     m : None, int or "all"
         Orders of an axisymmetric flow (see the module docstring).
+    max_resolution : (L, N), optional
+        Cap of ``resolution="auto"`` (default ``(32, 32)``; ``(20, 20)`` when all orders couple).
     **settings
         Method settings (``SHIFT_DEFAULTS``, ``PROPAGATOR_DEFAULTS``, ``MARCH_DEFAULTS``).
 
@@ -140,14 +166,13 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
     opts = {**defaults, **settings}
     ladder_run = []
     if isinstance(resolution, str) and resolution == "auto":
-        ladder = AUTO_AXISYMMETRIC if facts.axisymmetric and flow.steady else AUTO_COUPLED
-        ladder = [r for r in ladder if r[0] >= facts.degree + 2]
         runs = []
-        for res in ladder:
+        for res in auto_ladder(facts, facts.axisymmetric and flow.steady, max_resolution, flow.name):
             out = solve(flow, rm, res, method, m, facts, opts)
             ladder_run.append([list(res), out["eigenvalue"].real, abs(out["eigenvalue"].imag)])
             runs.append((res, out))
-            if len(runs) > 1 and abs(out["eigenvalue"].real - runs[-2][1]["eigenvalue"].real) <= tolerance:
+            if len(runs) > 1 and abs(out["eigenvalue"].real - runs[-2][1]["eigenvalue"].real) <= tolerance \
+                    and out["converged"] and runs[-2][1]["converged"]:
                 break
         (check_res, other), (main_res, main) = runs[-2], runs[-1]
     else:
@@ -177,7 +202,8 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
             reason = (f"growth rate changed by {error:.3g} between resolution {list(check_res)} and "
                       f"{list(main_res)} (tolerance {tolerance:g}); try resolution={nxt}")
             if ladder_run:
-                reason += " (the 'auto' ladder reached its cap)"
+                reason = (f"not converged: the 'auto' ladder reached its cap {tuple(main_res)}; the " + reason +
+                          ", or raise max_resolution / tolerance")
         else:
             reason = f"agrees within {tolerance:g} with resolution {list(check_res)}"
     diagnostics = {k: v for k, v in main.items() if k not in ("eigenvalue", "vector", "op")}
