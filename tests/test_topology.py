@@ -721,3 +721,50 @@ def test_relative_helicity_of_a_ball_field_against_cartesian_quadrature():
     assert h.energy == pytest.approx(totals[False][1] + totals[True][1], rel=1e-8)
     with pytest.raises(FlowkitError, match="relative magnetic helicity only"):
         mode_helicity(res, "current")
+
+
+def _axisymmetric_result():
+    """The free-decay dipole S_10 with a toroidal T_10 = j_1(k r) / 2: an axisymmetric field whose
+    magnetic axis (the circle r = r0, z = 0 where (r S)' = 0, so the poloidal part vanishes) is a
+    closed field line."""
+    from flowkit.dynamo.results import GrowthResult
+
+    res, _ = _free_decay_result()
+    mode = res.mode.copy()
+    mode[0, 0, 0, 1], mode[0, 0, 1, 1] = 0.5 * mode[0, 0, 1, 1], 0.0
+    r0 = scipy.optimize.brentq(lambda r: math.pi * r * scipy.special.spherical_jn(1, math.pi * r, derivative=True)
+                               + scipy.special.spherical_jn(1, math.pi * r), 0.3, 0.99)
+    return GrowthResult(growth_rate=-math.pi ** 2, frequency=0.0, rm=0.0, resolution=[3, 16], method="closed form",
+                        mode=mode, domain="ball", orders=[0, 1]), r0
+
+
+def test_field_line_linking_equals_the_winding_around_the_magnetic_axis(tmp_path, capsys):
+    """A closed curve links the circle r = r0, z = 0 as often as its meridional projection (rho, z) winds
+    around (r0, 0): both count signed crossings of the disk the circle bounds (common practice, no
+    source). The axis itself is traced as a closed field line (gap ~ 0); the second line after three
+    toroidal returns is closed by its chord, and its winding is counted independently by angles."""
+    import json
+
+    from flowkit.cli import main
+    from flowkit.topology.fieldlines import mode_field_flow
+    from flowkit.topology.fieldlinks import field_line_linking
+
+    res, r0 = _axisymmetric_result()
+    fl = mode_field_flow(res)
+    lk = field_line_linking(fl, [r0, 0, 0], [r0 + 0.1, 0, 0], returns=(1, 3), samples=1500)
+    axis, line = lk.first, lk.second
+    assert lk.gaps[0] < 1e-9 and np.abs(np.hypot(axis[:, 0], axis[:, 1]) - r0).max() < 1e-8
+    rho, z = np.hypot(line[:, 0], line[:, 1]) - r0, line[:, 2]
+    ang = np.arctan2(z, rho)
+    winding = np.sum(np.angle(np.exp(1j * np.diff(np.append(ang, ang[0]))))) / (2 * np.pi)
+    assert abs(winding - round(winding)) < 1e-9 and round(winding) != 0
+    assert abs(lk.integer) == abs(round(winding)) and lk.closed_defect < 1e-9
+    assert lk.gaps[1] > 0.01 and 0 < lk.defect < 0.5  # the open line is not closed: Lk is not an integer
+    # the command line gives the same numbers from a saved mode
+    res.save(tmp_path / "mode.npz")
+    assert main(["loop", "--mode", str(tmp_path / "mode.npz"), "--seeds", f"{r0},0,0", f"{r0 + 0.1},0,0",
+                 "--returns", "1,3", "--samples", "1500", "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)["field_line_linking"]
+    assert out["integer"] == lk.integer and out["linking"] == pytest.approx(lk.linking, abs=1e-9)
+    assert main(["loop", "--mode", str(tmp_path / "mode.npz"), "--seeds", "0,0", "1,1,1", "--json"]) == 2
+    assert "--seeds takes 3 comma-separated numbers" in json.loads(capsys.readouterr().out)["error"]

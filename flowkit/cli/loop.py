@@ -10,7 +10,8 @@ def add(sub):
         description="Topology of closed curves. With --file: length, curvature, writhe of the curve in FILE "
         "(one 'x y z' line per point, in order; the last point joins the first), its ribbon's twist with "
         "--normals, and its linking number with the curve in --link. With --flow: carry a closed ribbon through "
-        "the flow and report Wr, Tw, Lk over time.",
+        "the flow and report Wr, Tw, Lk over time. With --mode: the linking number of two field lines of a saved "
+        "dynamo mode (box or ball), traced from --seeds to their --returns-th return and closed by chords.",
     )
     p.add_argument("--file", default=None, metavar="CURVE.txt", help="closed curve, one 'x y z' line per point")
     p.add_argument("--normals", default=None, metavar="NORMALS.txt", help="ribbon normals, one per curve point")
@@ -22,6 +23,12 @@ def add(sub):
     p.add_argument("--periods", type=int, default=None, help="periods of a time-periodic --flow instead of --time")
     p.add_argument("--passes", type=int, default=10, help="insertion passes (per period with --periods)")
     p.add_argument("--max-points", type=int, default=20_000, help="point budget of the loop (default 20000)")
+    p.add_argument("--mode", default=None, metavar="MODE.npz",
+                   help="saved dynamo result with its mode (growth_rate(..., keep_mode=True).save(...))")
+    p.add_argument("--seeds", nargs=2, default=None, metavar="X,Y,Z", help="with --mode: seeds of the two field lines")
+    p.add_argument("--returns", default="1,1", metavar="KA,KB",
+                   help="with --mode: returns of each line to the plane through its seed (default 1,1)")
+    p.add_argument("--samples", type=int, default=2000, help="with --mode: points per field line (default 2000)")
     p.add_argument("--save", default=None, metavar="OUT.npz", help="save the result (.npz, .nc or .json)")
     return p
 
@@ -31,10 +38,12 @@ def run(args) -> dict:
     from flowkit.errors import FlowkitError
     from flowkit.validation import output_path
 
-    if (args.file is None) == (args.flow is None):
-        raise FlowkitError("give exactly one of --file CURVE.txt and --flow FLOW")
+    if sum(v is not None for v in (args.file, args.flow, args.mode)) != 1:
+        raise FlowkitError("give exactly one of --file CURVE.txt, --flow FLOW and --mode MODE.npz")
     if args.save:
         output_path(args.save, "--save")
+    if args.mode is not None:
+        return _field_lines(args)
     if args.flow is not None:
         from flowkit.flows import flow
         from flowkit.topology.material import material_ribbon
@@ -63,3 +72,34 @@ def run(args) -> dict:
     if args.save:
         (main or writhe(c)).save(args.save)
     return out
+
+
+def _numbers(text: str, n: int, option: str, kind=float) -> list:
+    from flowkit.errors import FlowkitError
+
+    try:
+        vals = [kind(v) for v in text.split(",")]
+    except ValueError:
+        vals = []
+    if len(vals) != n:
+        raise FlowkitError(f"{option} takes {n} comma-separated numbers (e.g. {','.join(['1'] * n)}); got {text!r}")
+    return vals
+
+
+def _field_lines(args) -> dict:
+    from flowkit.errors import FlowkitError
+    from flowkit.results import load
+    from flowkit.topology.fieldlines import mode_field_flow
+    from flowkit.topology.fieldlinks import field_line_linking
+
+    if not args.seeds:
+        raise FlowkitError("--mode needs --seeds X,Y,Z X,Y,Z (one seed per field line)")
+    res = load(args.mode)
+    if getattr(res, "mode", None) is None:
+        raise FlowkitError(f"--mode {args.mode} holds no mode: save a growth_rate(..., keep_mode=True) result")
+    a, b = (_numbers(s, 3, "--seeds") for s in args.seeds)
+    returns = _numbers(args.returns, 2, "--returns", int)
+    lk = field_line_linking(mode_field_flow(res), a, b, returns=returns, samples=args.samples)
+    if args.save:
+        lk.save(args.save)
+    return {"field_line_linking": lk.summary(), "mode": str(args.mode), "seeds": [a, b], "returns": returns}

@@ -5,7 +5,10 @@
 - :mod:`~flowkit.topology.ribbons`: ribbons, twist, the Călugăreanu–White check.
 - :mod:`~flowkit.topology.material`: material ribbons carried by a flow, Wr(t), Tw(t), Lk(t).
 - :mod:`~flowkit.topology.helicity`: kinetic, magnetic and current helicity.
-- :mod:`~flowkit.topology.fieldlines`: a box dynamo mode's magnetic field as a flow to trace.
+- :mod:`~flowkit.topology.fieldlines`: a box dynamo mode's magnetic field as a flow to trace;
+  :mod:`~flowkit.topology.ballfield` the same for ball (sphere-dynamo) modes, with the potential exterior.
+- :mod:`~flowkit.topology.ballhelicity`: relative magnetic helicity of a ball mode.
+- :mod:`~flowkit.topology.fieldlinks`: linking number of two (nearly) closed field lines.
 """
 
 from flowkit.topology.curves import ClosedCurve, closed_curve
@@ -19,6 +22,9 @@ _LAZY = {
     "helicity_density": "flowkit.topology.helicity",
     "mode_helicity": "flowkit.topology.helicity",
     "mode_field_flow": "flowkit.topology.fieldlines",
+    "ball_field_flow": "flowkit.topology.ballfield",
+    "ball_helicity": "flowkit.topology.ballhelicity",
+    "field_line_linking": "flowkit.topology.fieldlinks",
 }
 
 

@@ -89,7 +89,13 @@ class Writhe(Result):
 
 @dataclass
 class Linking(Result):
-    """Gauss linking number of two closed curves, with its distance from the nearest integer."""
+    """Gauss linking number of two closed curves, with its distance from the nearest integer.
+
+    For two field lines (:func:`flowkit.topology.fieldlinks.field_line_linking`)
+    ``linking`` is the integral over the open lines, ``integer`` that of the lines
+    closed by chords, ``closed_defect`` the closed sum's round-off and ``gaps`` the
+    lines' return distances; these stay None for closed curves.
+    """
 
     linking: float
     integer: int
@@ -98,14 +104,21 @@ class Linking(Result):
     samples: tuple
     first: np.ndarray
     second: np.ndarray
+    open_linking: float | None = None
+    closed_defect: float | None = None
+    gaps: list | None = None
     provenance: dict = field(default_factory=dict)
 
     _ARRAYS = ("first", "second")
     _DIMS = {"first": ("sample_a", "xyz"), "second": ("sample_b", "xyz")}
 
     def summary(self) -> dict:
-        return {"linking": self.linking, "integer": self.integer, "defect": self.defect,
-                "closest_distance": self.closest_distance, "samples": list(self.samples)}
+        out = {"linking": self.linking, "integer": self.integer, "defect": self.defect,
+               "closest_distance": self.closest_distance, "samples": list(self.samples)}
+        if self.gaps is not None:
+            out.update({"open_linking": self.open_linking, "closed_defect": self.closed_defect,
+                        "gaps": [float(g) for g in self.gaps]})
+        return out
 
     def headline(self):
         return [("Lk", self.linking, None), ("integer", self.integer, None), ("|Lk - integer|", self.defect, None)]
