@@ -443,6 +443,38 @@ def test_material_ribbon_per_period_and_bad_input():
         material_ribbon(flowkit.flow("stf"), time=1.0, curve=_loop, normals=lambda s: tangent(s) * 0)
 
 
+def test_material_ribbon_of_a_map_per_iteration():
+    """The cat map's lift (x, y, z) -> (2x + y, x + y, z) is linear with det 1, so it is isotopic to the
+    identity (GL+(3) is connected; common practice, no source): Lk of a ribbon stays its integer. The
+    (2, 3) torus knot with the torus framing has Lk = -6 (see the torus test); Wr and Tw trade, and the
+    positions are the exact images A^k x of their labels."""
+    import flowkit
+    from flowkit.topology import material_ribbon
+
+    knot = lambda s: 0.5 + 0.3 * torus_knot(2, 3, 1.0, 0.4)(s)  # noqa: E731
+
+    def normal(t):
+        t = 2 * np.pi * np.asarray(t)
+        return np.stack([np.cos(3 * t) * np.cos(2 * t), np.cos(3 * t) * np.sin(2 * t), np.sin(3 * t)], 1)
+
+    cat = flowkit.flow("cat-map")
+    r = material_ribbon(cat, periods=2, curve=knot, normals=normal, initial_points=256, max_spacing=0.01)
+    assert r.per_period and np.allclose(r.times, [0, 1, 2]) and r.stopped == "time"
+    assert np.all(np.round(r.linking) == -6) and r.linking_drift < 1e-9
+    assert np.ptp(r.writhe) > 0.3 and np.allclose(r.twist + r.writhe, -6, atol=1e-8)
+    A2 = np.linalg.matrix_power(np.array([[2.0, 1, 0], [1, 1, 0], [0, 0, 1]]), 2)
+    X = r.positions
+    back = np.linalg.solve(A2, X.T).T  # the labels' start points lie on the knot (torus of radii 0.3, 0.12)
+    c = back - 0.5
+    rho = np.hypot(c[:, 0], c[:, 1])
+    assert np.abs(np.hypot(rho - 0.3, c[:, 2]) - 0.12).max() < 1e-12
+    with pytest.raises(FlowkitError, match="map: pass `periods`"):
+        material_ribbon(cat, time=1.0)
+    with pytest.raises(FlowkitError, match="lift is discontinuous"):
+        material_ribbon(flowkit.flow("sfs-map"), periods=2, curve=knot, normals=normal, initial_points=128,
+                        max_points=3000, max_spacing=0.02)
+
+
 # -- command line -------------------------------------------------------------------------------------
 def test_cli_loop_reads_curve_files_and_names_bad_lines(tmp_path, capsys):
     """`flowkit loop --file ... --link ...`: the (2, 3) torus knot links its core 3 times (as above)."""

@@ -22,8 +22,12 @@ point is a true material point. At every pass Wr (with its sampling error from e
 other point), Tw, Lk(curve, edge) and the defect Lk - Tw - Wr are recorded.
 
 Time-periodic flows: ``periods=k`` runs k periods with passes aligned on period
-boundaries and records once per period (``per_period = True``). Maps are not
-supported.
+boundaries and records once per period (``per_period = True``). Maps
+(:class:`~flowkit.flows.maps.Map`): ``periods=k`` iterations, recorded after each;
+points move by the map's formula applied to unwrapped coordinates (its lift to
+R^3, so a periodic map's loop is not cut by the wrap) and t, d by its exact
+Jacobian. A map whose lift is discontinuous (``sfs-map``) cuts the loop: it then
+needs ever more points and stops at the point budget.
 
 Stops early (``stopped``) when the point budget is reached, a point fails (leaves
 the domain), or d becomes nearly parallel to the curve (it aligns with the
@@ -101,7 +105,7 @@ def _need(X, D, opts):
     """Segments (k, k+1 cyclic) to bisect: too long, or curve / normal turning too much at an end."""
     seg = _cyclic(X)
     L = np.linalg.norm(seg, axis=1)
-    T = seg / L[:, None]
+    T = seg / np.maximum(L, 1e-300)[:, None]  # coincident points (a cut by a map) are refused later
     cturn = np.einsum("ij,ij->i", T, np.roll(T, 1, axis=0))          # at point k (between k-1 and k)
     Np = D - np.einsum("ij,ij->i", D, T)[:, None] * T
     Np /= np.maximum(np.linalg.norm(Np, axis=1), 1e-300)[:, None]
@@ -141,12 +145,20 @@ def material_ribbon(flow, time=None, curve=None, normals=None, *, periods: int |
     -------
     RibbonHistory
     """
+    from flowkit.flows.maps import is_map
     from flowkit.topology.results import RibbonHistory
 
     if (time is None) == (periods is None):
         raise FlowkitError("give exactly one of `time` (a duration) and `periods` (periods of a time-periodic flow)")
     passes = count(passes, "passes")
-    if periods is not None:
+    mapped = is_map(flow)
+    if mapped:
+        if periods is None:
+            raise FlowkitError(f"'{flow.name}' is a map: pass `periods` (iterations), not `time`")
+        periods = count(periods, "periods")
+        marks = np.arange(periods + 1, dtype=np.float64)
+        record = set(range(len(marks)))
+    elif periods is not None:
         periods = count(periods, "periods")
         if flow.period is None:
             raise FlowkitError(f"`periods` needs a time-periodic flow; '{flow.name}' is steady: pass `time` instead")
@@ -169,6 +181,8 @@ def material_ribbon(flow, time=None, curve=None, normals=None, *, periods: int |
                                "(M,) -> (M, 3)")
         desc = {"curve": getattr(curve, "__name__", "callable"), "normal": getattr(normals, "__name__", "callable")}
     size = 2.0 if flow.domain == "ball" else (2 * math.pi if flow.domain == "periodic" else 2.0)
+    if mapped:
+        size = max(hi - lo for lo, hi in flow.family.box)
     dmax = size / 100 if max_spacing is None else float(max_spacing)
     opts = {"dmax": dmax, "dmin": dmax / 50, "cos_max": math.cos(max_angle)}
     settings = settings or IntegratorSettings(rtol=1e-10, atol=1e-12)
@@ -183,14 +197,20 @@ def material_ribbon(flow, time=None, curve=None, normals=None, *, periods: int |
         Tg = (8 * (curve(s + h) - curve(s - h)) - (curve(s + 2 * h) - curve(s - 2 * h))) / (12 * h)
         return np.hstack([X, np.asarray(Tg, dtype=np.float64), D])
 
+    def advance(Y, k):
+        """Rows [x, tangent, normal] carried from mark k - 1 to mark k (an iteration for a map)."""
+        if mapped:
+            return _map_step(flow, Y)
+        res = integrate_states(flow, Y, float(marks[k - 1]), float(marks[k]), settings, threads)
+        if np.any(res.outcome != Outcome.FINISHED):
+            raise _Failed()
+        return res.states
+
     def trace(s, k):
         """Rows [x, tangent, normal] of new labels, carried from the start through marks 0..k."""
         Y = project(start(s))
         for i in range(1, k + 1):
-            res = integrate_states(flow, Y, float(marks[i - 1]), float(marks[i]), settings, threads)
-            if np.any(res.outcome != Outcome.FINISHED):
-                raise _Failed()
-            Y = project(res.states)
+            Y = project(advance(Y, i))
         return Y
 
     Y0 = start(np.arange(n0) / n0)
@@ -220,7 +240,10 @@ def material_ribbon(flow, time=None, curve=None, normals=None, *, periods: int |
         seg = _cyclic(X)
         wr, dist, i, j = writhe_sum(X, threads)
         if dist <= TOUCH * size:
-            raise FlowkitError(f"the material curve touches itself at t = {marks[k]:g} (segments {i}, {j})")
+            why = ("; this map's lift is discontinuous (it cuts the loop and lays pieces on each other): use a "
+                   "continuous map" if mapped else "")
+            raise FlowkitError(f"the material curve touches itself at {'iteration' if mapped else 't ='} "
+                               f"{marks[k]:g} (segments {i}, {j}){why}")
         tw, _ = polygon_twist(X, N)
         eps = 0.05 * min(float(np.linalg.norm(seg, axis=1).min()), dist)
         lk = linking_sum(X, X + eps * N, threads)[0]
@@ -236,10 +259,7 @@ def material_ribbon(flow, time=None, curve=None, normals=None, *, periods: int |
         measure(0)
         for k in range(1, len(marks)):
             lab, Y = state
-            res = integrate_states(flow, Y, float(marks[k - 1]), float(marks[k]), settings, threads)
-            if np.any(res.outcome != Outcome.FINISHED):
-                raise _Failed()
-            state[1] = project(res.states)
+            state[1] = project(advance(Y, k))
             if not refine(k):
                 stopped = "max_points"
                 notes.append(f"point budget {max_points} reached at t = {marks[k]:g}")
@@ -258,8 +278,11 @@ def material_ribbon(flow, time=None, curve=None, normals=None, *, periods: int |
     lab, Y = state
     X, D = Y[:, :3], Y[:, 6:]
     prov = flow.provenance()
+    if mapped:
+        prov["iterations"] = int(marks[-1])
     prov["method"] = {"algorithm": "Lagrangian labels with bisection; normal carried as a field vector "
-                                   "dd/dt = (d.grad)u, re-projected perpendicular to the curve",
+                                   + ("d -> DF d (the map's exact Jacobian, unwrapped lift)" if mapped else
+                                      "dd/dt = (d.grad)u") + ", re-projected perpendicular to the curve",
                       "integrator": settings.as_dict(), "max_spacing": dmax, "max_angle": max_angle,
                       "loop": desc, "seconds": _time.perf_counter() - t_start}
     return RibbonHistory(times=np.array(rec["t"]), writhe=np.array(rec["wr"]), twist=np.array(rec["tw"]),
@@ -268,6 +291,18 @@ def material_ribbon(flow, time=None, curve=None, normals=None, *, periods: int |
                          npoints=np.array(rec["n"], dtype=np.int64), positions=X, normals=D / np.linalg.norm(D, axis=1)[:, None],
                          snapshots=snaps, stopped=stopped, per_period=periods is not None, notes=notes,
                          provenance=prov)
+
+
+def _map_step(m, Y: np.ndarray) -> np.ndarray:
+    """One iteration of rows [x, t, d]: x -> F(x) unwrapped (the formula's lift), t, d -> DF(x) t, DF(x) d."""
+    X = np.ascontiguousarray(Y[:, :3])
+    out = np.empty_like(X)
+    m.kernels.velocity_many(X, 0.0, m.params, out)  # a map's generated "velocity" is its image
+    J = m.jacobian(X)
+    Z = np.hstack([out, np.einsum("nij,nj->ni", J, Y[:, 3:6]), np.einsum("nij,nj->ni", J, Y[:, 6:9])])
+    if not np.all(np.isfinite(Z)):
+        raise _Failed()
+    return Z
 
 
 class _Failed(Exception):
