@@ -27,7 +27,7 @@ def curve_geometry():
 def writhe():
     from flowkit.topology import writhe
 
-    return writhe(_circle, n=64)
+    return writhe(_circle, n=64, method="fast")  # carries method and method_bound
 
 
 @example("Linking")

@@ -792,6 +792,10 @@ def test_field_line_linking_equals_the_winding_around_the_magnetic_axis(tmp_path
     assert abs(winding - round(winding)) < 1e-9 and round(winding) != 0
     assert abs(lk.integer) == abs(round(winding)) and lk.closed_defect < 1e-9
     assert lk.gaps[1] > 0.01 and 0 < lk.defect < 0.5  # the open line is not closed: Lk is not an integer
+    import flowkit
+    for suffix in (".json", ".npz", ".nc"):  # the field-line fields survive every format
+        back = flowkit.load(lk.save(tmp_path / f"lk{suffix}"))
+        assert back.gaps == pytest.approx(lk.gaps) and back.open_linking == pytest.approx(lk.open_linking)
     # the command line gives the same numbers from a saved mode
     res.save(tmp_path / "mode.npz")
     assert main(["loop", "--mode", str(tmp_path / "mode.npz"), "--seeds", f"{r0},0,0", f"{r0 + 0.1},0,0",
