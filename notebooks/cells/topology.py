@@ -97,4 +97,35 @@ plot_section(ax, lines, color_by="orbit")
 ax.set_title("field lines of the dynamo mode crossing z = pi")
 plt.show()
 """),
+    md("""
+## Field lines of a dynamo mode in the sphere
+
+The same questions for a dynamo in a ball of liquid metal with an insulating
+exterior: the growing mode of the 1989 benchmark flow t2s2 at Rm = 60. Its field
+(toroidal and poloidal scalars inside, the decaying potential field outside) is a
+flow on all of space, so field lines may leave the sphere and come back. We
+measure the mode's relative magnetic helicity (with the potential field outside),
+draw a section of its field lines in the plane y = 0, and compute the linking
+number of two field lines, each closed by a chord after two returns: the open lines'
+Gauss integral differs from the integer by how far the lines are from closed.
+"""),
+    code("""
+from flowkit.dynamo.sphere import benchmark_flow
+from flowkit.topology.fieldlinks import field_line_linking
+
+ball_mode = flowkit.growth_rate(benchmark_flow("t2s2"), rm=60, resolution=size((12, 12), (8, 8)),
+                                keep_mode=True, check_resolution=None)
+print("growth rate", ball_mode.growth_rate, "  ", mode_helicity(ball_mode))
+ball_field = mode_field_flow(ball_mode)
+print(ball_field.family.formula[0])
+ball_lines = flowkit.poincare_section(ball_field, [[0.3, 0, 0.2], [0.5, 0, -0.1], [0.6, 0, 0.4]],
+                                      flowkit.Plane((0, 1, 0), 0.0), crossings=size(300, 40))
+pair = field_line_linking(ball_field, [0.3, 0, 0.2], [0.6, 0, 0.4], returns=(2, 2), samples=size(2000, 500))
+print(pair.summary())
+fig, ax = plt.subplots(figsize=(4.4, 4), layout="constrained")
+plot_section(ax, ball_lines, color_by="orbit")
+ax.add_patch(plt.Circle((0, 0), 1.0, fill=False, ls="--", color="0.5"))
+ax.set_title("field lines of the t2s2 mode crossing y = 0")
+plt.show()
+"""),
 ]
