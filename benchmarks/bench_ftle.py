@@ -34,7 +34,7 @@ from _common import best_of, machine, save  # noqa: E402
 
 import flowkit  # noqa: E402
 from flowkit.chaos import GridPlane, ftle_field  # noqa: E402
-from flowkit.integrate.batch import IntegratorSettings  # noqa: E402
+from flowkit.integrate.batch import IntegratorSettings, integrate_states  # noqa: E402
 
 N = 256
 
@@ -184,6 +184,84 @@ def matched_accuracy_case(name, flow, plane, n, T, h, rtol, numpy_fn):
     return res
 
 
+def generic_driver_ftle(flow, field, settings, threads=1):
+    """The FTLE path before the FTLE kernels: the generic batch driver (3 + 3k components, loops,
+    velocity and gradient called separately), timed on the points of ``field``."""
+    from flowkit.chaos.ftle import ftle_from_states
+
+    planar = flow.kind == "planar"
+    ok = np.isfinite(field.values).ravel()
+    k = 2 if planar else 3
+    Y = np.zeros((int(ok.sum()), 3 + 3 * k))
+    Y[:, :3] = field.points.reshape(-1, 3)[ok]
+    for c in range(k):
+        Y[:, 3 + 4 * c] = 1.0
+    integrate_states(flow, Y[:2], 0.0, 0.1, settings, threads)  # compile
+    t0 = time.perf_counter()
+    res = integrate_states(flow, Y, 0.0, field.time, settings, threads)
+    seconds = time.perf_counter() - t0
+    vals = ftle_from_states(res.states, planar, field.time)
+    return seconds, float(np.nanmax(np.abs(vals - field.values.ravel()[ok]))), float(res.steps.mean())
+
+
+def _stats(d):
+    d = np.abs(d[np.isfinite(d)])
+    return {"max": float(d.max()), "p99": float(np.percentile(d, 99)), "median": float(np.median(d))}
+
+
+def variational_vs_flowmap_case(name, flow, plane, res, T, rtol, repeat=3):
+    """ftle_field (variational, both error norms) against the flow map + centred differences, equal tolerance.
+
+    One thread, the best of ``repeat`` interleaved runs. Also: the generic-driver path
+    ftle_field used before (same points, same tolerance), and how far the flow-map field
+    is from the variational one (ridge smearing), overall and on the ridges (grid points
+    where the variational FTLE is in its top 5 %).
+    """
+    settings = IntegratorSettings(rtol=rtol, atol=rtol * 1e-2)
+    variants = {"variational": {}, "variational_position_error": {"error_norm": "position"},
+                "flowmap": {"method": "flowmap"}}
+    for kw in variants.values():
+        ftle_field(flow, plane, (4, 4), 0.1, settings=settings, threads=1, progress=False, **kw)  # compile
+    best, fields = {k: math.inf for k in variants}, {}
+    for _ in range(repeat):
+        for key, kw in variants.items():
+            t0 = time.perf_counter()
+            fields[key] = ftle_field(flow, plane, res, T, settings=settings, threads=1, progress=False, **kw)
+            best[key] = min(best[key], time.perf_counter() - t0)
+    old_seconds, old_diff, old_steps = generic_driver_ftle(flow, fields["variational"], settings)
+    var = fields["variational"].values
+    ridge = var >= np.nanpercentile(var, 95)
+    out = {"case": name, "grid": list(res), "time": T, "rtol": rtol, "threads": 1, "seconds": best,
+           "generic_driver_seconds": old_seconds, "generic_driver_steps_mean": old_steps,
+           "generic_driver_max_abs_diff": old_diff,
+           "speed_vs_flowmap": {k: best["flowmap"] / best[k] for k in best},
+           "speedup_vs_generic_driver": {k: old_seconds / best[k] for k in best if k != "flowmap"},
+           "position_error_vs_full": _stats(fields["variational_position_error"].values - var),
+           "flowmap_vs_variational": _stats(fields["flowmap"].values - var),
+           "flowmap_vs_variational_on_ridges": _stats((fields["flowmap"].values - var)[ridge]),
+           "ridge_max": {"variational": float(np.nanmax(var)), "flowmap": float(np.nanmax(fields["flowmap"].values))}}
+    print(f"{name}: {res[0]}x{res[1]}, T = {T}, rtol {rtol:g}, one thread (best of {repeat})")
+    print(f"  flow map + FD {best['flowmap']:.2f} s | variational {best['variational']:.2f} s "
+          f"({out['speed_vs_flowmap']['variational']:.2f}x the flow map) | position-only error "
+          f"{best['variational_position_error']:.2f} s ({out['speed_vs_flowmap']['variational_position_error']:.2f}x) | "
+          f"before (generic driver) {old_seconds:.2f} s ({best['flowmap'] / old_seconds:.2f}x), same field to "
+          f"{old_diff:.1e}")
+    print(f"  position-only vs full: {out['position_error_vs_full']}; flow map vs variational: "
+          f"{out['flowmap_vs_variational']}, on ridges {out['flowmap_vs_variational_on_ridges']}")
+    return out
+
+
+def equal_tolerance_main():
+    """The goal-3 comparison alone (``python benchmarks/bench_ftle.py flowmap``)."""
+    before = machine()["load_average"]
+    cases = [variational_vs_flowmap_case("double-gyre, plane z=0", flowkit.flow("double-gyre"),
+                                         GridPlane.coordinate("z", 0.0, (0.0, 2.0, 0.0, 1.0)), (400, 200), 15.0, 1e-8),
+             variational_vs_flowmap_case("stf rotation=0.1, plane y=0", flowkit.flow("stf", rotation=0.1),
+                                         GridPlane.coordinate("y", 0.0, None), (200, 200), 5.0, 1e-8)]
+    save("ftle_equal_tolerance", {"load_average_before": before, "load_average_after": machine()["load_average"],
+                                  "cases": cases})
+
+
 def main():
     before = machine()["load_average"]
     r = 0.3
@@ -202,4 +280,8 @@ def main():
 
 
 if __name__ == "__main__":
-    main()
+    if sys.argv[1:] == ["flowmap"]:
+        equal_tolerance_main()
+    else:
+        main()
+        equal_tolerance_main()

@@ -146,7 +146,7 @@ def test_bad_input_gets_clear_errors(gyre, linear_flow):
         ftle_field(gyre, GYRE_PLANE, (4, 4), 0.0)
     with pytest.raises(FlowkitError, match="`time` must be a positive"):
         ftle_field(gyre, GYRE_PLANE, (4, 4), -3.0)
-    with pytest.raises(FlowkitError, match="`resolution` must be at least 2x2"):
+    with pytest.raises(FlowkitError, match="`resolution` must be an integer >= 1"):
         ftle_field(gyre, GYRE_PLANE, (0, 4), 1.0)
     with pytest.raises(FlowkitError, match="planar: the grid must lie in the x-y plane"):
         ftle_field(gyre, TILTED, (4, 4), 1.0)
@@ -197,3 +197,86 @@ def test_interrupted_field_keeps_finished_chunks(gyre, monkeypatch):
     flat = field.outcome.ravel()
     assert np.all(flat[:12] == 0) and np.all(flat[12:] == ftle_mod.NOT_RUN)
     assert np.all(np.isfinite(field.values.ravel()[:12])) and not field.complete
+
+
+# -- the FTLE kernels (flowkit/kernels/ftle_dop*.py) against the generic batch driver ----------------
+def _initial_states(points, planar):
+    k = 2 if planar else 3
+    Y = np.zeros((len(points), 3 + 3 * k))
+    Y[:, :3] = points
+    for c in range(k):
+        Y[:, 3 + 4 * c] = 1.0
+    return Y
+
+
+@pytest.mark.parametrize("name,plane", [("double-gyre", GYRE_PLANE), ("stf", TILTED)])
+def test_ftle_kernel_takes_the_steps_of_the_generic_driver(name, plane):
+    # with the full error norm the FTLE kernel is the generic DOP853 driver (tested against scipy and the
+    # order conditions in test_steppers.py) on the same state: the same accepted steps, the same end states
+    # up to round-off (fused velocity_gradient, contracted multiply-adds)
+    f = flowkit.flow(name)
+    planar = f.kind == "planar"
+    pts = plane.grid((7, 5))[2].reshape(-1, 3)
+    a, b = _initial_states(pts, planar), _initial_states(pts, planar)
+    n = len(pts)
+    out_a = [np.zeros(n, np.int8), np.zeros(n), np.zeros(n, np.int64)]
+    out_b = [np.zeros(n, np.int8), np.zeros(n), np.zeros(n, np.int64)]
+    f.kernels.ftle_dop853_batch(a, 0.0, 6.0, f.params, 1e-9, 1e-11, np.inf, 10**6, f.domain == "ball", planar,
+                                False, *out_a)
+    f.kernels.batch_solve(b, 0.0, 6.0, f.params, 0, 1e-9, 1e-11, np.inf, 10**6, 1, f.domain == "ball", *out_b)
+    np.testing.assert_array_equal(out_a[0], out_b[0])
+    np.testing.assert_array_equal(out_a[2], out_b[2])
+    np.testing.assert_allclose(a, b, rtol=1e-10, atol=1e-10 * np.abs(b).max())
+
+
+def test_unrolled_planar_attempt_equals_the_loop_attempt():
+    # ftle_dop_planar.py (generated, stages in locals) against the loop version in ftle_dop.py
+    from flowkit.integrate.tableau import W_ROWS, W_YNEW
+
+    f = flowkit.flow("double-gyre")
+    k = f.kernels
+    rng = np.random.default_rng(7)
+    for nerr in (3, 9):
+        for _ in range(5):
+            y = np.zeros(9)
+            y[[0, 1, 3, 4, 6, 7]] = rng.uniform(0.1, 1.9, 6)
+            Wa, Wb = np.zeros((W_ROWS, 9)), np.zeros((W_ROWS, 9))
+            k._ftle_rate(0.3, y, f.params, Wa, 0, True)
+            Wb[0] = Wa[0]
+            ea = k._ftle_try2(0.3, y, 0.2, f.params, 1e-8, 1e-10, Wa, nerr)
+            eb = k.ftle_try2_unrolled(0.3, y, 0.2, f.params, 1e-8, 1e-10, Wb, nerr)
+            assert abs(ea - eb) <= 1e-6 * abs(ea)   # an estimate from cancelling sums: round-off shows
+            np.testing.assert_allclose(Wb[:13], Wa[:13], rtol=1e-13, atol=1e-15)
+            np.testing.assert_allclose(Wb[W_YNEW], Wa[W_YNEW], rtol=1e-14, atol=1e-16)
+
+
+def test_generated_planar_template_is_up_to_date():
+    from flowkit.kernels import _ftle_unroll
+
+    assert _ftle_unroll.TARGET.read_text() == _ftle_unroll.template_text(), \
+        "run python -m flowkit.kernels._ftle_unroll and commit flowkit/kernels/ftle_dop_planar.py"
+
+
+def test_position_only_error_norm_stays_close_to_the_full_norm(gyre):
+    # Stated tolerance (rtol 1e-8, the double gyre over 1.5 periods): 2e-6 wherever the orbit moves. At the
+    # corners (stagnation points) the position error vanishes, the step grows to max_step and J goes
+    # uncontrolled: there the gap is large unless max_step bounds the step (documented in ftle_field).
+    plane = GridPlane.coordinate("z", 0.0, (0.0, 2.0, 0.0, 1.0))
+    loose = IntegratorSettings(rtol=1e-8, atol=1e-10)
+    full = ftle_field(gyre, plane, (41, 21), 15.0, settings=loose)
+    pos = ftle_field(gyre, plane, (41, 21), 15.0, settings=loose, error_norm="position")
+    gap = np.abs(pos.values - full.values)
+    assert gap[1:-1, 1:-1].max() < 2e-6
+    assert gap[0, 0] > 1e-3                        # the corner: why the norm is not the default
+    capped = IntegratorSettings(rtol=1e-8, atol=1e-10, max_step=1.0)
+    gap = np.abs(ftle_field(gyre, plane, (41, 21), 15.0, settings=capped, error_norm="position").values
+                 - ftle_field(gyre, plane, (41, 21), 15.0, settings=capped).values)
+    assert gap.max() < 2e-6
+    assert pos.provenance["method"]["error_norm"] == "position"
+    # 3-D (12 components): stf through the ball, no stagnation point on the plane's interior grid
+    f = flowkit.flow("stf", rotation=0.3)
+    a = ftle_field(f, TILTED, (9, 9), 3.0, settings=loose)
+    b = ftle_field(f, TILTED, (9, 9), 3.0, settings=loose, error_norm="position")
+    assert np.nanmax(np.abs(a.values - b.values)) < 1e-5
+    with pytest.raises(FlowkitError, match="error_norm"):
+        ftle_field(gyre, GYRE_PLANE, (4, 4), 1.0, error_norm="jacobian")

@@ -30,7 +30,7 @@ from flowkit.chaos.grid import GridPlane, check_resolution
 from flowkit.chaos.tangent import method_record, require_flow
 from flowkit.errors import FlowkitError, FlowkitNotice
 from flowkit.flows.base import Flow
-from flowkit.integrate.batch import IntegratorSettings, integrate_states, thread_limit
+from flowkit.integrate.batch import IntegratorSettings, integrate_states, thread_limit  # noqa: F401 (old path, for comparisons)
 from flowkit.integrate.outcomes import OUTCOME_NAMES, outcome_counts, outcome_notes
 from flowkit.progress import Budget
 from flowkit.results import Result, plain
@@ -153,7 +153,7 @@ def ftle_from_states(states: np.ndarray, planar: bool, time: float) -> np.ndarra
         return np.log(sig) / time
 
 
-def _run_chunk(flow, pts, t0, t1, time, settings, threads, planar):
+def _run_chunk(flow, pts, t0, t1, time, settings, threads, planar, error_norm):
     """FTLE values and outcome codes for one chunk of grid points."""
     if settings.method == "rk4":
         nsteps = max(1, int(math.ceil(time / settings.step - 1e-9)))
@@ -169,14 +169,19 @@ def _run_chunk(flow, pts, t0, t1, time, settings, threads, planar):
     Y[:, :3] = pts
     for c in range(k):
         Y[:, 3 + 3 * c + c] = 1.0
-    res = integrate_states(flow, Y, t0, t1, settings, threads)
-    vals = ftle_from_states(res.states, planar, time)
-    vals[res.outcome != 0] = np.nan
-    return vals, res.outcome
+    codes = np.zeros(Y.shape[0], dtype=np.int8)
+    with thread_limit(threads), numba.parallel_chunksize(1):
+        flow.kernels.ftle_dop853_batch(Y, t0, t1, flow.params, settings.rtol, settings.atol, float(settings.max_step),
+                                       int(settings.max_steps), flow.domain == "ball", planar,
+                                       error_norm == "position", codes, np.zeros(Y.shape[0]),
+                                       np.zeros(Y.shape[0], dtype=np.int64))
+    vals = ftle_from_states(Y, planar, time)
+    vals[codes != 0] = np.nan
+    return vals, codes
 
 
 def _variational_chunks(flow, flat, idx, values, outcome, t0, t1, time, settings, threads, planar, chunk,
-                        progress, max_seconds) -> Budget:
+                        progress, max_seconds, error_norm) -> Budget:
     """Fill ``values``/``outcome`` at ``idx`` chunk by chunk under a progress/time/Ctrl-C budget."""
     with Budget(total=idx.size, desc=f"FTLE {flow.name}", unit="pt", progress=progress,
                 max_seconds=max_seconds) as budget:
@@ -184,7 +189,7 @@ def _variational_chunks(flow, flat, idx, values, outcome, t0, t1, time, settings
             if budget.expired():
                 break
             part = idx[a:a + chunk]
-            vals, codes = _run_chunk(flow, flat[part], t0, t1, time, settings, threads, planar)
+            vals, codes = _run_chunk(flow, flat[part], t0, t1, time, settings, threads, planar, error_norm)
             values[part] = vals
             outcome[part] = codes
             budget.advance(part.size)
@@ -205,6 +210,7 @@ def ftle_field(
     progress: bool | None = None,
     max_seconds: float | None = None,
     method: str = "variational",
+    error_norm: str = "full",
 ) -> FTLEField:
     """FTLE field of ``flow`` on a grid over ``plane``.
 
@@ -240,6 +246,15 @@ def ftle_field(
         equations with the exact gradient. "flowmap": positions only, then centred
         finite differences over one grid spacing (:mod:`flowkit.chaos.ftle_flowmap`);
         cheaper, but ridges are smeared over a cell and depend on the resolution.
+    error_norm : {"full", "position"}
+        What DOP853's step control measures with ``method="variational"``. "full"
+        (default): the position and the deformation gradient, as every flowkit
+        integration does. "position": the position only, so each orbit takes the
+        steps its streamline alone would take (those of ``method="flowmap"``) and
+        the deformation gradient rides along without its own error control:
+        faster (fewer steps when J grows), and the FTLE error is then set by the
+        streamline's accuracy; tests/test_ftle.py bounds the difference from
+        "full" (see the module notes).
 
     Returns
     -------
@@ -251,6 +266,7 @@ def ftle_field(
     time = check_time(time)
     one_of(direction, "direction", ("forward", "backward"))
     one_of(method, "method", ("variational", "flowmap"))
+    one_of(error_norm, "error_norm", ("full", "position"))
     if not isinstance(plane, GridPlane):
         raise FlowkitError(f"`plane` must be a GridPlane (GridPlane.coordinate('z', 0.0, span)); got {type(plane).__name__}")
     t0 = finite(t0, "t0")
@@ -280,7 +296,7 @@ def ftle_field(
         outcome[inside] = codes2.ravel()[inside]
     else:
         budget = _variational_chunks(flow, flat, idx, values, outcome, float(t0), t1, time, settings, threads,
-                                     planar, chunk, progress, max_seconds)
+                                     planar, chunk, progress, max_seconds, error_norm)
     notes = []
     if budget.partial:
         notes.append(f"{'interrupted' if budget.interrupted else 'time budget reached'}: "
@@ -298,7 +314,8 @@ def ftle_field(
                              "flow map of positions, centred finite differences over one grid spacing")
         + "; FTLE = log(largest singular value of the deformation gradient) / T"
         + ("; in-plane 2x2 block" if planar else ""),
-        resolution=list(check_resolution(resolution)), threads=threads, ftle_method=method)
+        resolution=list(check_resolution(resolution)), threads=threads, ftle_method=method,
+        **({"error_norm": error_norm} if method == "variational" and settings.method == "dop853" else {}))
     M, N = pts.shape[:2]
     return FTLEField(values.reshape(M, N), s, r, pts, outcome.reshape(M, N), time, float(t0), direction,
                      plane.as_dict(), seconds, budget.partial, notes, provenance)

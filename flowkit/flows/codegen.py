@@ -89,16 +89,16 @@ def velocity_gradient_source(
         Parameter symbols, in the order of the parameter vector ``p``.
     """
     exprs = [_expr(e) for e in exprs]
-    steps, outputs = chain_rule_program(exprs)
     if sum(sp.count_ops(e) for e in exprs) > LARGE_OPS:
+        steps, outputs = chain_rule_program(exprs)
         out = _program_function("velocity", steps, outputs[:3], params)
         out += _program_function("gradient", steps, outputs[3:], params)
+        out += _program_function("velocity_gradient", steps, outputs, params)
     else:
         grads = [sp.diff(e, c) for e in exprs for c in COORDS]
         out = []
-        for name, group in (("velocity", exprs), ("gradient", grads)):
+        for name, group in (("velocity", exprs), ("gradient", grads), ("velocity_gradient", exprs + grads)):
             out += _function(name, group, params)
-    out += _program_function("velocity_gradient", steps, outputs, params)
     return "\n".join(out) + "\n" + splitting_source(exprs, params)
 
 

@@ -43,6 +43,7 @@ TEMPLATES: list[str] = [
     "sections",
     "lyapunov",
     "ftle",
+    "ftle_dop", "ftle_dop_planar",
     "stretching",
     "returnmap",
 ]
