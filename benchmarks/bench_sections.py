@@ -75,7 +75,7 @@ def scipy_rate(flow, n_cross: int = 100, wrapped: bool = False) -> tuple[float, 
 def main() -> int:
     load_before = os.getloadavg()
     flow = flowkit.flow("stf", rotation=0.1)
-    compile_s = warm_sections(flow)
+    compile_s = warm_sections(flow, wait=True)
 
     # 1. against scipy, one thread
     scipy_cps, n_scipy = scipy_rate(flow)

@@ -92,7 +92,7 @@ def tangent_states(x0: np.ndarray, k: int) -> np.ndarray:
 def main() -> int:
     load_before = os.getloadavg()
     flow = flowkit.flow("stf", rotation=ROT)
-    warm_sections(flow)
+    warm_sections(flow, wait=True)
     S = IntegratorSettings(rtol=RTOL, atol=ATOL)
     c = c_reference()
 

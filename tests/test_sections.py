@@ -13,7 +13,7 @@ from flowkit.cli import main
 from flowkit.errors import FlowkitError
 from flowkit.integrate.batch import IntegratorSettings, integrate_states
 from flowkit.integrate.outcomes import Outcome
-from flowkit.sections import Plane, Section, Stroboscopic, poincare_section, tolerance_check
+from flowkit.sections import Plane, Section, Stroboscopic, poincare_section, tolerance_check, warm_sections
 
 TIGHT = {"rtol": 1e-13, "atol": 1e-15}
 
@@ -33,6 +33,29 @@ def rotation():
     # u = (-y, x, a z^2): for a = 0 a rigid rotation about z (exact solution: circles);
     # for a = 1 and z0 > 0, z = z0 / (1 - z0 t) blows up at t = 1/z0.
     return flowkit.custom_flow(["-y", "x", "a*z**2"], params={"a": 0.0}, kind="system", name="rotation-sec")
+
+
+
+def test_generic_kernel_gives_the_family_kernels_crossings_bit_for_bit():
+    """The generic section kernel (the flow's functions called through pointers, compiled once for all
+    flows) runs the same arithmetic in the same order as the family's own kernel: exact identity."""
+    from flowkit.kernels import generic
+    from flowkit.sections.compute import _call_kernel, _plane_vector
+
+    f = flowkit.flow("stf", rotation=0.3)
+    seeds = np.array([[0.1, 0.0, 0.2], [0.3, 0.0, -0.4]])
+    pvec, _ = _plane_vector(f, Plane((0, 1, 0), 0.0, "+"))
+    opts = (1e-10, 1e-12, math.inf, 10**6, 0.0, 2)
+    runs = []
+    for kernel, params in ((f.kernels.sec_batch_dop853, f.params),
+                           (generic.generic_kernels().sec_batch_dop853, generic.pointer_params(f))):
+        out = (np.empty((2, 300, 3)), np.empty((2, 300)), np.empty((2, 300)), np.zeros(2, dtype=np.int64),
+               np.zeros(2, dtype=np.int8), np.zeros(2), np.zeros(2, dtype=np.int64))
+        _call_kernel(kernel, params, 0, seeds, 0.0, math.inf, pvec, opts, True, out)
+        runs.append(out)
+    assert (runs[0][3] == 300).all()
+    for a, b in zip(*runs):
+        assert np.array_equal(a, b)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -218,6 +241,7 @@ def test_bad_input_gets_clear_errors():
 
 def test_parameter_change_reuses_the_compiled_kernel():
     f = flowkit.flow("stf", rotation=0.3)
+    warm_sections(f, wait=True)  # the family's own kernel now (a cold first section may run the generic one)
     poincare_section(f, [[0.1, 0.0, 0.2]], crossings=2)
     kernel = f.kernels.sec_batch_dop853
     n_sigs = len(kernel.signatures)

@@ -13,6 +13,7 @@ from flowkit.errors import FlowkitError, FlowkitNotice
 from flowkit.flows.base import Flow
 from flowkit.integrate.batch import IntegratorSettings, check_seeds, thread_limit
 from flowkit.integrate.splitting import SplittingSettings, check_splittable
+from flowkit.kernels import generic
 from flowkit.sections.geometry import DIRECTIONS, Plane, Stroboscopic, lattice_spacing
 from flowkit.sections.result import Section
 from flowkit.validation import memory
@@ -153,13 +154,15 @@ def poincare_section(
     seconds = 0.0
     # The first call in a process compiles the kernel (or loads it from the disk cache): do that on a
     # one-seed, near-zero-time run first and report it as compile_seconds, apart from `seconds`.
-    kernel = flow.kernels.sec_batch_dop853 if mcode == 0 else flow.kernels.sec_batch_fixed
+    opts = (float(rtol), float(atol), float(max_step), int(max_steps), hfix, int(order))
+    kernel, params, background = _pick_kernel(flow, mcode, pvec, opts)
     compile_seconds = 0.0
     if N and not getattr(kernel, "signatures", True):
         tic = time.perf_counter()
-        _run_kernel(flow, mcode, X0[:1], float(t0), float(t0) + 1e-9, pvec, 1, settings_args=(
-            float(rtol), float(atol), float(max_step), int(max_steps), hfix, int(order)))
+        _run_kernel(kernel, params, mcode, X0[:1], float(t0), float(t0) + 1e-9, pvec, 1, opts)
         compile_seconds = time.perf_counter() - tic
+    if background is not None:  # only now: the generic kernel is loaded, so nothing here waits for numba's lock
+        background()
     interrupted = False
     bar = None
     if progress:
@@ -179,8 +182,8 @@ def poincare_section(
                 t_end = np.zeros(n)
                 steps = np.zeros(n, dtype=np.int64)
                 tic = time.perf_counter()
-                _call_kernel(flow, mcode, X0[sl], float(t0), t_lim, pvec, (float(rtol), float(atol), float(max_step),
-                             int(max_steps), hfix, int(order)), (pts, tim, sgn, count, outcome, t_end, steps))
+                _call_kernel(kernel, params, mcode, X0[sl], float(t0), t_lim, pvec, opts, flow.domain == "ball",
+                             (pts, tim, sgn, count, outcome, t_end, steps))
                 seconds += time.perf_counter() - tic
                 parts.append((pts, tim, sgn, count, outcome, t_end, steps))
                 done = sl.stop
@@ -210,6 +213,7 @@ def poincare_section(
         threads=int(threads or numba.get_num_threads()),
         seconds=seconds,
         compile_seconds=compile_seconds,
+        kernel="generic" if params is not flow.params else "specialized",
         interrupted=interrupted,
     )
     return Section(
@@ -228,31 +232,66 @@ def poincare_section(
     )
 
 
-def _call_kernel(flow: Flow, mcode: int, X0, t0: float, t_lim: float, pvec, opts: tuple, out: tuple) -> None:
-    """One batch of the section kernel; ``opts`` = (rtol, atol, max_step, max_steps, step, order)."""
+def _pick_kernel(flow: Flow, mcode: int, pvec, opts: tuple):
+    """(kernel, parameter vector, start-background-compile or None) for this section.
+
+    The family's own DOP853 kernel when it is compiled or cached on disk; otherwise the
+    generic kernel (compiled once for every flow, bitwise the same results; see
+    flowkit/kernels/generic.py) and a function that compiles the family's own one in a
+    background thread, so later sections of this flow run at full speed.
+    """
+    if mcode != 0:
+        return flow.kernels.sec_batch_fixed, flow.params, None
+    kernel = flow.kernels.sec_batch_dop853
+    if not generic.enabled() or generic.ready(kernel):
+        return kernel, flow.params, None
+    params = generic.pointer_params(flow)
+    if params is None:
+        return kernel, flow.params, None
+    shared = generic.generic_kernels().sec_batch_dop853
+
+    def warm():  # compile only (the same argument types as the generic kernel's): never a second parallel run
+        kernel.compile(shared.signatures[0])
+
+    return shared, params, lambda: generic.compile_in_background(flow.kernels.__name__ + ".sec_batch_dop853", warm)
+
+
+def _call_kernel(kernel, params, mcode: int, X0, t0: float, t_lim: float, pvec, opts: tuple, bounded: bool,
+                 out: tuple) -> None:
+    """One batch of a section kernel; ``opts`` = (rtol, atol, max_step, max_steps, step, order)."""
     rtol, atol, max_step, max_steps, hfix, order = opts
     if mcode == 0:
-        flow.kernels.sec_batch_dop853(X0, t0, t_lim, flow.params, rtol, atol, max_step, max_steps,
-                                      flow.domain == "ball", pvec, *out)
+        kernel(X0, t0, t_lim, params, rtol, atol, max_step, max_steps, bounded, pvec, *out)
     else:
-        flow.kernels.sec_batch_fixed(X0, t0, t_lim, flow.params, mcode, hfix, order, max_steps,
-                                     flow.domain == "ball", pvec, *out)
+        kernel(X0, t0, t_lim, params, mcode, hfix, order, max_steps, bounded, pvec, *out)
 
 
-def _run_kernel(flow: Flow, mcode: int, X0, t0: float, t_lim: float, pvec, crossings: int, settings_args) -> None:
+def _run_kernel(kernel, params, mcode: int, X0, t0: float, t_lim: float, pvec, crossings: int, opts,
+                bounded: bool = False) -> None:
     """A throw-away kernel call with fresh output buffers (compiles the kernel on first use)."""
     n = len(X0)
     out = (np.empty((n, crossings, 3)), np.empty((n, crossings)), np.empty((n, crossings)),
            np.zeros(n, dtype=np.int64), np.zeros(n, dtype=np.int8), np.zeros(n), np.zeros(n, dtype=np.int64))
-    _call_kernel(flow, mcode, X0, t0, t_lim, pvec, settings_args, out)
+    _call_kernel(kernel, params, mcode, X0, t0, t_lim, pvec, opts, bounded, out)
 
 
-def warm_sections(flow: Flow, method: str = "dop853") -> float:
-    """Compile (or load from the disk cache) the section kernel; return seconds spent."""
+def warm_sections(flow: Flow, method: str = "dop853", wait: bool = False) -> float:
+    """Make sections of ``flow`` ready to run; return seconds spent.
+
+    Loads the section kernel from the disk cache, or compiles it. For a DOP853
+    section of a flow whose own kernel is not cached yet, the generic kernel is
+    made ready instead and the flow's own one compiles in the background (see
+    :func:`poincare_section`); ``wait=True`` compiles the flow's own kernel now.
+    """
     tic = time.perf_counter()
     seed = np.zeros((1, 3)) if flow.contains(np.zeros((1, 3)))[0] else None
     if seed is None:  # pragma: no cover - every domain contains the origin today
         return 0.0
+    if wait and method == "dop853":
+        kernel = flow.kernels.sec_batch_dop853
+        pvec, _ = _plane_vector(flow, Plane())
+        _run_kernel(kernel, flow.params, 0, seed, 0.0, 1e-9, pvec, 1, (1e-10, 1e-12, math.inf, 10, 0.0, 2))
+        return time.perf_counter() - tic
     kw = {"step": 0.1} if method != "dop853" else {}
     poincare_section(flow, seed, Plane(), crossings=1, t_max=0.1, method=method, **kw)
     return time.perf_counter() - tic
