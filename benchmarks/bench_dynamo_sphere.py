@@ -62,6 +62,28 @@ def timed(flow, rm, res, check=None, **kw) -> dict:
             "eigenvalue": r.diagnostics.get("eigenvalue")}
 
 
+def breakdown(flow, rm, res, m=None) -> dict:
+    """Where one eigenvalue's time goes: building the parts D, K (transforms), the real form and
+    families, and the shift-invert solve (LU + ARPACK), each timed on its own."""
+    from flowkit.dynamo.sphere import parts as store
+    from flowkit.dynamo.sphere.eigen import guesses_from_coarse, solve_families
+
+    store._STORE.clear()
+    op = BallOperator(flow, rm, *res, m=m)
+    t0 = time.perf_counter()
+    parts = store.operator_parts(op)
+    t1 = time.perf_counter()
+    blocks, _ = store.real_blocks(op, parts)
+    t2 = time.perf_counter()
+    guesses = guesses_from_coarse(op)
+    t3 = time.perf_counter()
+    out = solve_families(op, guesses=guesses)
+    t4 = time.perf_counter()
+    return {"resolution": list(res), "m": m, "dof": op.dof, "families": [b.shape[0] for _, b in blocks],
+            "parts_s": t1 - t0, "real_form_s": t2 - t1, "coarse_guesses_s": t3 - t2, "solve_s": t4 - t3,
+            "growth_rate": out["eigenvalue"].real, "load": load()}
+
+
 def table(flow, rm, ladder, **kw) -> list:
     return [timed(flow, rm, res, **kw) for res in ladder]
 
@@ -130,6 +152,11 @@ def main(quick: bool, stf_only: bool) -> None:
     out = {"operator": operator_vs_transforms(12 if quick else 16, 12 if quick else 16)}
     t2s2, t1s1 = benchmark_flow("t2s2"), benchmark_flow("t1s1")
     timed(t2s2, 54.0, (8, 8), m=1)  # compile the flow's kernels outside the timings
+    out["axisymmetric_L24_breakdown"] = breakdown(t2s2, 54.0, (24, 24), m=1)
+    print(out["axisymmetric_L24_breakdown"], flush=True)
+    from flowkit.dynamo.sphere import parts as store
+
+    store._STORE.clear()
     out["axisymmetric_L24"] = {"first": timed(t2s2, 54.0, (24, 24), m=1),
                                "second_rm": timed(t2s2, 55.0, (24, 24), m=1),
                                "default_call": timed(t2s2, 56.0, (24, 24), check="auto")}
@@ -146,6 +173,8 @@ def main(quick: bool, stf_only: bool) -> None:
     print({k: out[k] for k in out if k.endswith("critical")}, flush=True)
     res = (8, 8) if quick else (14, 14)
     stf = flowkit.flow("stf", rotation=0.3)
+    out["stf_breakdown"] = breakdown(stf, 140.0, res)
+    store._STORE.clear()
     out["stf_eigenvalue"] = {"first": timed(stf, 140.0, res), "second_rm": timed(stf, 141.0, res)}
     print(out["stf_eigenvalue"], flush=True)
     save("dynamo_sphere", out)

@@ -109,23 +109,33 @@ plt.show()"""),
 `stf` (stretch-twist-fold Stokes flow, rotation about y couples every order m)
 and a Lamb flow of our own scenario: a droplet levitated in a coil, with a
 meridional circulation (Hill's-vortex type, pressure harmonic P1_0) and a
-differential swirl (toroidal harmonic T2_0). **These are new results, not
-published anywhere.** Full runs (all orders coupled for stf) find **a dynamo for stf at
-rotation 0.3 with onset between Rm = 120 and 160** (≈ 136 at (12, 12), ≈ 151 at
-(10, 10): not converged), none below Rm = 160 at rotation 0.1, and none below
-Rm = 200 for the levitated droplet. Resolution table of the stf growth rate, (L, N) = (8, 8) / (10, 10) / (12, 12):
+differential swirl (toroidal harmonic T2_0). **New results, not published
+anywhere** (all orders coupled; `benchmarks/bench_dynamo_sphere.py --stf-only`):
 
-| Rm | rotation 0.1 | rotation 0.3 |
+**stf at rotation 0.3 is a dynamo: Rm_c = 139.5 ± 2**, a steady mode (frequency 0).
+Onset per resolution (secant on the growth rate to 1e-6):
+
+| (L, N) | Rm_c | growth rate at Rm = 138.5 / 140 |
 |---|---|---|
-| 10 | −16.891 / −16.891 / – | −16.638 / −16.638 / – |
-| 20 | −17.559 / −17.497 / – | −16.734 / −16.705 / – |
-| 40 | −17.746 / −17.503 / −17.527 | −15.090 / −15.009 / −14.998 |
-| 80 | – / −16.504 / −16.602 | – / −9.774 / −9.419 |
-| 120 | – | – / −4.213 / −2.807 |
-| 160 | – / – / −13.479 | – / +1.242 / +4.255 |
+| (12, 12) | 136.08 | – |
+| (14, 14) | 139.40 | – |
+| (16, 16) | 138.68 | – |
+| (18, 18) | 139.83 | – |
+| (20, 20) | 139.44 | −0.156 / +0.093 |
+| (16, 20) | 137.11 | +0.241 / +0.502 |
+| (20, 16) | 141.07 | −0.416 / −0.173 |
 
-Converging the rotation-0.3 onset needs (L, N) beyond (12, 12). The cell below redoes a small version
-of the scan (quick sizes under FLOWKIT_QUICK=1).
+The diagonal (L = N) settles within ±0.6 of 139.4 from (14, 14) on, but raising
+L alone (16 → 20) moves the onset up by about 2.4 and raising N alone down by
+about 1.6: the stated ± 2 covers that spread, not only the diagonal's.
+
+**stf at rotation 0.1: no onset below Rm = 160** (growth rate −13.48 / −12.58 /
+−13.03 at (12, 12) / (14, 14) / (16, 16)); at Rm = 240 the (16, 16) rate is −8.75,
+while (12, 12) and (14, 14) have spurious growing modes (rates 300–500, frequencies
+near 270–310) that change from one resolution to the next, and at Rm = 320 so has
+(16, 16): the resolution check flags them, and above Rm = 160 only resolutions
+beyond (16, 16) can say more. The levitated droplet has no dynamo up to Rm = 200.
+The cell below redoes a small scan (quick sizes under FLOWKIT_QUICK=1).
 """),
     code("""
 droplets = {
@@ -159,6 +169,18 @@ fig, axes = plt.subplots(1, 2, figsize=(8, 3.8), layout="constrained")
 for ax, plane in zip(axes, ("meridional", "equatorial")):
     plot_mode_slice(ax, lead, plane=plane, resolution=size(64, 32))
 plt.show()"""),
+    md("""
+## The onset of stf at rotation 0.3
+
+One resolution of the table above (quick: (10, 10), where the onset is still about
+151). Each growth rate costs seconds: the operator is stored as D + Rm K and only
+its sum is formed for each Rm of the search.
+"""),
+    code("""
+res_o = size((16, 16), (10, 10))
+onset_stf = critical_rm(droplets["stf, rotation 0.3"], size([136, 142], [145, 155]), resolution=res_o,
+                        xtol=size(1e-4, 2e-2), progress=False, check_resolution=size((14, 14), None))
+print(onset_stf)"""),
     md("""
 ## Beside it: the perfect-conductor (ideal) estimates of the same flows
 
