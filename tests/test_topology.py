@@ -320,6 +320,10 @@ def test_bad_curves_are_refused_with_clear_errors():
     eight = lambda t: np.stack([np.sin(4 * np.pi * t), np.sin(2 * np.pi * t), 0 * t], 1)  # noqa: E731
     with pytest.raises(FlowkitError, match=r"crosses itself.*near \[-?0\.0, -?0\.0, 0\.0\]"):
         T.writhe(eight, n=64)
+    with pytest.raises(FlowkitError, match=r"crosses itself.*near \[-?0\.0, -?0\.0, 0\.0\]"):
+        T.writhe(eight, n=64, method="fast")  # the fast path finds it among its exact near pairs
+    with pytest.raises(FlowkitError, match="near must be at least 2"):
+        T.writhe(circle(), n=64, method="fast", near=1.0)
     with pytest.raises(FlowkitError, match="touch"):
         T.linking_number(circle(), circle((2, 0, 0)), n=64)
     with pytest.raises(FlowkitError, match="touch"):
