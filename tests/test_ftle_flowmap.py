@@ -51,3 +51,22 @@ def test_method_is_checked():
     with pytest.raises(FlowkitError, match="method"):
         flowkit.ftle_field(flowkit.flow("double-gyre"), flowkit.GridPlane.coordinate("z", 0.0, (0, 2, 0, 1)),
                            (8, 4), time=1.0, method="finite")
+
+
+def test_cli_gradient_flowmap_reaches_ftle_field(tmp_path, capsys):
+    import json
+
+    from flowkit.cli import main
+
+    out = tmp_path / "fm.npz"
+    code = main(["ftle", "double-gyre", "--plane", "z=0", "--span", "0.2,0.8,0.2,0.8", "--resolution", "9x9",
+                 "--time", "2", "--gradient", "flowmap", "--out", str(out), "--json"])
+    res = json.loads(capsys.readouterr().out)
+    assert code == 0, res
+    back = flowkit.load(out)
+    assert back.provenance["method"]["ftle_method"] == "flowmap"
+    # the same field as the API call with method="flowmap" at the CLI's tolerance
+    api = flowkit.ftle_field(flowkit.flow("double-gyre"), flowkit.GridPlane.coordinate("z", 0.0, (0.2, 0.8, 0.2, 0.8)),
+                             (9, 9), time=2.0, settings=IntegratorSettings(rtol=1e-9, atol=1e-11), method="flowmap",
+                             progress=False)
+    np.testing.assert_array_equal(back.values, api.values)
