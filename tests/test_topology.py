@@ -810,3 +810,27 @@ def test_field_line_linking_equals_the_winding_around_the_magnetic_axis(tmp_path
     assert out["integer"] == lk.integer and out["linking"] == pytest.approx(lk.linking, abs=1e-9)
     assert main(["loop", "--mode", str(tmp_path / "mode.npz"), "--seeds", "0,0", "1,1,1", "--json"]) == 2
     assert "--seeds takes 3 comma-separated numbers" in json.loads(capsys.readouterr().out)["error"]
+
+
+def test_fast_linking_within_its_bound_and_ribbons_on_the_fast_path():
+    """Fast linking against the exact kernel (difference within the bound); the (2, 3) knot links its
+    core circle 3 times (as above); a framed knot at 20,000 points (fast sums for Wr and Lk) still has
+    Lk = -6 and Călugăreanu-White within the stated bound (the torus test's derivation)."""
+    from flowkit.topology.writhe import fast_linking_sum, linking_sum
+
+    n = 3000
+    P, Q = torus_knot(2, 3, 1.0, 0.3)(np.arange(n) / n), circle()(np.arange(n + 37) / (n + 37))
+    exact = linking_sum(P, Q)[0]
+    fast, bound, *_ = fast_linking_sum(P, Q)
+    assert abs(fast - exact) <= bound < 1e-4 and abs(abs(round(fast)) - 3) == 0
+    assert fast_linking_sum(P, Q, threads=1)[0] == fast_linking_sum(P, Q, threads=2)[0]
+    lk = T.linking_number(P, Q, method="fast")
+    assert lk.integer == round(exact) and lk.provenance["method_bound"] == pytest.approx(bound)
+
+    def normal(t):
+        t = 2 * np.pi * np.asarray(t)
+        return np.stack([np.cos(3 * t) * np.cos(2 * t), np.cos(3 * t) * np.sin(2 * t), np.sin(3 * t)], 1)
+
+    r = T.ribbon_topology(T.ribbon(torus_knot(2, 3, 1.0, 0.3), normal, n=20000), error=False)
+    assert 0 < r.method_bound < 1e-5 and r.linking_integer == -6
+    assert abs(r.defect) < 1e-9 + r.method_bound

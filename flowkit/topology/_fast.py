@@ -175,3 +175,67 @@ def near_rows(P, M, cut, rows, dmin, jmin, counts):
         dmin[i] = best
         jmin[i] = bj
         counts[i] = cnt
+
+
+@njit(cache=True, fastmath=True, error_model="numpy", parallel=True)
+def midpoint_rows_two(mx, my, mz, sx, sy, sz, qx, qy, qz, tx, ty, tz, keep2, rows, bounds):
+    """Per-row rule sums of closed polygons P (midpoints m, segments s) against Q (q, t): all n x m pairs.
+
+    Lk ~ sum(rows) / (4 pi); bounds[i] is row i's sum of |V_s| / r^7 over far pairs.
+    """
+    for i in prange(mx.shape[0]):
+        acc, bnd = _mid_span(0, qx.shape[0], mx[i], my[i], mz[i], sx[i], sy[i], sz[i], qx, qy, qz, tx, ty, tz, keep2)
+        rows[i] = acc
+        bounds[i] = bnd
+
+
+@njit(cache=True, parallel=True)
+def near_rows_two(P, MP, Q, MQ, cut, rows, dmin, jmin, counts):
+    """Exact solid angle minus the rule's value for pairs of P and Q segments with midpoints closer than cut.
+
+    The cell list holds Q's midpoints; every segment of P looks in its 27 cells.
+    Also records each row's closest near segment of Q (exact segment distance).
+    """
+    n, m = P.shape[0], Q.shape[0]
+    cut2 = cut * cut
+    both = np.concatenate((MQ, MP))  # one grid origin for both curves
+    C, span, skey, order = _cells(both, cut)
+    for i in prange(n):
+        i1 = i + 1 if i + 1 < n else 0
+        acc = 0.0
+        best = math.inf
+        bj = -1
+        cnt = 0
+        ci = m + i
+        for ox in range(-1, 2):
+            for oy in range(-1, 2):
+                for oz in range(-1, 2):
+                    k = ((C[ci, 0] + ox) * span + C[ci, 1] + oy) * span + C[ci, 2] + oz
+                    a = np.searchsorted(skey, k)
+                    while a < n + m and skey[a] == k:
+                        j = order[a]
+                        a += 1
+                        if j >= m:  # a midpoint of P itself
+                            continue
+                        dx = MP[i, 0] - MQ[j, 0]
+                        dy = MP[i, 1] - MQ[j, 1]
+                        dz = MP[i, 2] - MQ[j, 2]
+                        r2 = dx * dx + dy * dy + dz * dz
+                        if r2 >= cut2:
+                            continue
+                        j1 = j + 1 if j + 1 < m else 0
+                        sxi, syi, szi = P[i1, 0] - P[i, 0], P[i1, 1] - P[i, 1], P[i1, 2] - P[i, 2]
+                        sxj, syj, szj = Q[j1, 0] - Q[j, 0], Q[j1, 1] - Q[j, 1], Q[j1, 2] - Q[j, 2]
+                        mid = _rule(dx, dy, dz, sxi, syi, szi, sxj, syj, szj)[0] if r2 > 0.0 else 0.0
+                        om = _omega(P[i, 0], P[i, 1], P[i, 2], P[i1, 0], P[i1, 1], P[i1, 2],
+                                    Q[j, 0], Q[j, 1], Q[j, 2], Q[j1, 0], Q[j1, 1], Q[j1, 2])
+                        acc += om - mid
+                        cnt += 1
+                        d = segment_distance(P[i], P[i1], Q[j], Q[j1])
+                        if d < best:
+                            best = d
+                            bj = j
+        rows[i] = acc
+        dmin[i] = best
+        jmin[i] = bj
+        counts[i] = cnt
