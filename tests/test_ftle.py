@@ -280,3 +280,16 @@ def test_position_only_error_norm_stays_close_to_the_full_norm(gyre):
     assert np.nanmax(np.abs(a.values - b.values)) < 1e-5
     with pytest.raises(FlowkitError, match="error_norm"):
         ftle_field(gyre, GYRE_PLANE, (4, 4), 1.0, error_norm="jacobian")
+
+
+def test_cli_error_norm_position_matches_the_api(capsys, tmp_path):
+    out = tmp_path / "p.npz"
+    code = main(["ftle", "double-gyre", "--plane", "z=0", "--span", "0.1,1.9,0.1,0.9", "--resolution", "8x4",
+                 "--time", "5", "--error-norm", "position", "--out", str(out), "--json"])
+    res = json.loads(capsys.readouterr().out)
+    assert code == 0, res
+    back = FTLEField.load(out)
+    api = ftle_field(flowkit.flow("double-gyre"), GYRE_PLANE, (8, 4), 5.0, error_norm="position",
+                     settings=IntegratorSettings(rtol=1e-9, atol=1e-11))
+    np.testing.assert_array_equal(back.values, api.values)
+    assert back.provenance["method"]["error_norm"] == "position"
