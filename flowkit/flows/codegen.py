@@ -91,9 +91,10 @@ def velocity_gradient_source(
     exprs = [_expr(e) for e in exprs]
     if sum(sp.count_ops(e) for e in exprs) > LARGE_OPS:
         steps, outputs = chain_rule_program(exprs)
-        out = _program_function("velocity", steps, outputs[:3], params)
-        out += _program_function("gradient", steps, outputs[3:], params)
-        out += _program_function("velocity_gradient", steps, outputs, params)
+        printed: dict = {}  # each step printed once for the three functions
+        out = _program_function("velocity", steps, outputs[:3], params, printed)
+        out += _program_function("gradient", steps, outputs[3:], params, printed)
+        out += _program_function("velocity_gradient", steps, outputs, params, printed)
     else:
         grads = [sp.diff(e, c) for e in exprs for c in COORDS]
         out = []
@@ -146,7 +147,8 @@ def chain_rule_program(exprs: Sequence[sp.Expr]) -> tuple[list, list]:
     return steps, outputs
 
 
-def _program_function(name: str, steps: list, outputs: Sequence[sp.Expr], params: Sequence[sp.Symbol]) -> list[str]:
+def _program_function(name: str, steps: list, outputs: Sequence[sp.Expr], params: Sequence[sp.Symbol],
+                      printed: dict | None = None) -> list[str]:
     """Lines of a jitted ``name(x, y, z, t, _params)`` running the steps ``outputs`` needs."""
     need = set().union(*(e.free_symbols for e in outputs)) if outputs else set()
     keep = []
@@ -155,7 +157,11 @@ def _program_function(name: str, steps: list, outputs: Sequence[sp.Expr], params
             keep.append((sym, val))
             need |= val.free_symbols
     lines = [f"    {sym.name} = {PARAMS}[{i}]" for i, sym in enumerate(params)]
-    lines += [f"    {sym} = {_print(val)}" for sym, val in reversed(keep)]
+    printed = {} if printed is None else printed
+    for sym, val in reversed(keep):
+        if sym not in printed:
+            printed[sym] = _print(val)
+        lines.append(f"    {sym} = {printed[sym]}")
     ret = ", ".join(_print(e) for e in outputs)
     return ["@njit(cache=CACHE, error_model=\"numpy\")", f"def {name}(x, y, z, t, {PARAMS}):", *lines,
             f"    return ({ret},)", ""]
