@@ -36,7 +36,7 @@ def _pack_out(op, lam, vec, converged, message, **extra):
 #: Largest family block solved by dense LAPACK ``eig`` (all eigenvalues; ~0.1 s at this size).
 DENSE_MAX = 800
 #: Up to this many unknowns a shifted block is factorised densely (faster than SuperLU's fill-in).
-DENSE_LU_MAX = 12000
+DENSE_LU_MAX = 16000
 
 
 def guesses_from_coarse(op, count: int = 2) -> list[complex]:

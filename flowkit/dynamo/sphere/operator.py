@@ -149,7 +149,10 @@ class BallOperator:
         """``(dT/dt, dS/dt)`` of the induction term ``Rm curl(u x B)`` alone (arrays as :meth:`zeros`)."""
         self.set_time(t)
         self.matvecs += 1 if T.ndim == 3 else int(np.prod(T.shape[:-3]))
-        br, bs, bt = self.field_coefficients(T, S)
+        return self.induction_of_fields(*self.field_coefficients(T, S))
+
+    def induction_of_fields(self, br, bs, bt):
+        """The induction term from the field's coefficients at all nodes (:meth:`field_coefficients`)."""
         Br, Bt, Bp = self.grid.synth_vector(br, bs, bt)
         ur, ut, up = self.u
         er, es, et = self.grid.analyse_vector(ut * Bp - up * Bt, up * Br - ur * Bp, ur * Bt - ut * Br)

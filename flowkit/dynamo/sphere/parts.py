@@ -55,15 +55,29 @@ def diffusion_matrix(op) -> sps.csr_matrix:
 
 
 def induction_dense(op) -> np.ndarray:
-    """``K`` (induction at ``Rm = 1``) as a dense matrix: the induction term on all basis vectors."""
+    """``K`` (induction at ``Rm = 1``) as a dense matrix: the induction term on all basis vectors.
+
+    A basis vector's field coefficients are one column of the radial matrices, so they are
+    gathered directly instead of being unpacked and multiplied (half the cost at L = N = 24).
+    """
+    from flowkit.dynamo.sphere.families import pack_index
+
+    op.set_time(0.0)
+    idx = pack_index(op)
+    where = np.argwhere(idx >= 0)  # (field, order, degree, node) per packed position, in pack order
+    where = where[np.argsort(idx[tuple(where.T)])]
+    shape = op.active.shape + (op.n,)
     cols = []
     step = max(1, int(2e7 // max(1, op.n * op.grid.n_theta * op.grid.n_phi * 16)))
     for i in range(0, op.dof, step):
-        k = min(step, op.dof - i)
-        unit = np.zeros((k, op.dof), complex)
-        unit[np.arange(k), i + np.arange(k)] = 1.0
-        T, S = op.unpack(unit)
-        cols.append(op.pack(*op.induction(T, S)))
+        f, mi, l, j = where[i:i + step].T
+        k = np.arange(f.size)
+        br, bs, bt = (np.zeros((f.size,) + shape, complex) for _ in range(3))
+        s_, t_ = f == 1, f == 0
+        br[k[s_], mi[s_], l[s_]] = op._br[l[s_], :, j[s_]]
+        bs[k[s_], mi[s_], l[s_]] = op._bs[l[s_], :, j[s_]]
+        bt[k[t_], mi[t_], l[t_]] = op._bt[l[t_], :, j[t_]]
+        cols.append(op.pack(*op.induction_of_fields(br, bs, bt)))
     return np.concatenate(cols, axis=0).T / op.rm
 
 
