@@ -10,7 +10,8 @@
    (difference against the stated bound).
 3. The numpy reference (tests/naive_topology.py: the same solid-angle formula over all
    ordered pairs, vectorized per block of rows) runs at N_ref points, scaled likewise.
-4. Linking number of the knot with its core circle at N_exact x N_exact (exact kernel).
+4. Linking number of the knot with its core circle: exact kernel at N_exact x N_exact, and
+   the fast sum there (difference against its bound) and at N x N on two threads.
 
 Standalone: ``python benchmarks/bench_topology.py`` (``--quick``: N = 2 * 10^4).
 Writes benchmarks/results/topology.json. The machine may be shared: the load
@@ -30,7 +31,7 @@ sys.path.insert(0, str(Path(__file__).parents[1] / "tests"))
 from _common import save  # noqa: E402
 
 import naive_topology as naive  # noqa: E402
-from flowkit.topology.writhe import fast_writhe_sum, linking_sum, writhe_sum  # noqa: E402
+from flowkit.topology.writhe import fast_linking_sum, fast_writhe_sum, linking_sum, writhe_sum  # noqa: E402
 
 
 def knot(n: int) -> np.ndarray:
@@ -72,7 +73,7 @@ def main(argv=None) -> dict:
     load_before = os.getloadavg()
     for th in (1, 2):  # compile
         writhe_sum(knot(64), th), fast_writhe_sum(knot(64), th)
-    linking_sum(knot(64), knot(64) + 5.0)
+    linking_sum(knot(64), knot(64) + 5.0), fast_linking_sum(knot(64), knot(64) + 5.0)
     P, R, E = knot(n), knot(nref), knot(nex)
     pairs = n * (n - 3) / 2
 
@@ -87,6 +88,9 @@ def main(argv=None) -> dict:
     th = 2 * np.pi * np.arange(nex) / nex
     core = np.stack([np.cos(th), np.sin(th), np.zeros(nex)], 1)
     (lk, *_), t_lk = timed(lambda: linking_sum(E, core, 2))
+    (lk_fast_e, lk_bound_e, *_), t_lk_fast_e = timed(lambda: fast_linking_sum(E, core, 2))
+    core_n = np.stack([np.cos(2 * np.pi * np.arange(n) / n), np.sin(2 * np.pi * np.arange(n) / n), np.zeros(n)], 1)
+    (lk_fast, lk_bound, *_), t_lk_fast = timed(lambda: fast_linking_sum(P, core_n, 2))
     out = {
         "points": n, "ref_points": nref, "exact_points": nex,
         "fast_writhe": f1, "fast_bound": b1, "near_pairs": near_pairs,
@@ -104,6 +108,10 @@ def main(argv=None) -> dict:
         "speedup_fast_vs_numpy_one_thread": t_numpy_scaled / t1,
         "speedup_fast_vs_numpy_two_threads": t_numpy_scaled / t2,
         "linking_with_core_at_exact_points": lk, "linking_seconds_two_threads": t_lk,
+        "fast_linking_at_exact_points": lk_fast_e, "fast_linking_bound_at_exact_points": lk_bound_e,
+        "fast_linking_seconds_at_exact_points_two_threads": t_lk_fast_e,
+        "fast_linking_at_points": lk_fast, "fast_linking_bound_at_points": lk_bound,
+        "fast_linking_seconds_at_points_two_threads": t_lk_fast,
         "load_before": load_before, "load_after": os.getloadavg(),
         "note": "numpy and exact-kernel times measured at their own sizes and scaled by the square of the size "
                 "ratio (O(N^2) work, same work per pair)",

@@ -575,6 +575,14 @@ def test_loop_explorer_time_slider_redraws_loop_and_histories():
     ex.flush()
     assert ex.wr_line.get_data()[0][-1] == pytest.approx(1.0, rel=1e-3)
     ex.close()
+    circ = LoopExplorer("circular", params={"epsilon": 0.1}, time=2.0, passes=2, max_points=3000)
+    assert not circ.per_period.disabled and ex.per_period.disabled  # steady stf: nothing to count per period
+    circ.per_period.value = True
+    circ.update()
+    per = circ.flow.period
+    n = max(1, int(round(float(circ.time_slider.value) / per)))  # T rounded to whole periods, at least one
+    np.testing.assert_allclose(circ.wr_line.get_data()[0], per * np.arange(n + 1))
+    circ.close()
 
 
 def test_flux_tube_lines_link_the_axis_lk_plus_twist_times():

@@ -50,22 +50,35 @@ class LoopExplorer(Explorer):
         self.passes = int(passes)
         self.max_points = int(max_points)
         self.time_slider = log_slider(float(time), -1, 1.3, 0.02, "T")
+        import ipywidgets as w
+
+        # time-periodic flows: record once per period (T rounded to whole periods)
+        self.per_period = w.Checkbox(value=False, description="per period", indent=False)
         super().__init__(flow, params=params, presets=presets, figsize=figsize, **kw)
         self.time_slider.observe(lambda c: self.changed() if moved(c) else None, names="value")
+        self.per_period.observe(lambda c: self.changed(), names="value")
+        self._flow_changed()
 
     def _extra_controls(self) -> list:
-        return [self.time_slider]
+        return [self.time_slider, self.per_period]
 
     def _flow_changed(self) -> None:
         self.result = None
+        if hasattr(self, "per_period"):
+            self.per_period.disabled = getattr(getattr(self, "flow", None), "period", None) is None
 
     # -- computing ------------------------------------------------------------------------
     def _ribbon(self, flow: Flow, time: float, passes: int, max_points: int, coarse: bool):
         from flowkit.topology import material_ribbon
 
         size = 2.0 if flow.domain == "ball" else 2 * math.pi
-        return material_ribbon(flow, time=time, passes=passes, max_points=max_points,
-                               max_spacing=size / (40 if coarse else 100), initial_points=64 if coarse else 128)
+        kw = {"time": time}
+        if self.per_period.value and flow.period is not None:
+            periods = max(1, int(round(time / flow.period)))
+            kw = {"periods": periods}
+            passes = max(2, passes // periods)
+        return material_ribbon(flow, passes=passes, max_points=max_points,
+                               max_spacing=size / (40 if coarse else 100), initial_points=64 if coarse else 128, **kw)
 
     def _warm(self, flow: Flow) -> None:
         self._ribbon(flow, 0.05, 1, 2000, True)
