@@ -12,8 +12,9 @@ keeps the symbolic work linear in the size of the formula; differentiating a lar
 unsimplified formula as a whole and running cse's algebraic preprocessing on the
 result took tens of seconds for the sphere benchmark flows. Small formulas keep
 their ``velocity`` and ``gradient`` printed the established way (whole-expression
-derivatives, cse with the basic optimizations), so their numbers do not change;
-formulas above :data:`LARGE_OPS` operations get those two from the program too.
+derivatives, cse with the basic optimizations), so their numbers do not change, and
+so do polynomials of any size (Lamb flows); non-polynomial formulas above
+:data:`LARGE_OPS` operations get those two from the program too.
 """
 
 from __future__ import annotations
@@ -89,23 +90,32 @@ def velocity_gradient_source(
         Parameter symbols, in the order of the parameter vector ``p``.
     """
     exprs = [_expr(e) for e in exprs]
-    if sum(sp.count_ops(e) for e in exprs) > LARGE_OPS:
+    large = sum(sp.count_ops(e) for e in exprs) > LARGE_OPS
+    if large and not all(e.is_polynomial(*COORDS) for e in exprs):
         steps, outputs = chain_rule_program(exprs)
-        printed: dict = {}  # each step printed once for the three functions
+        printed: dict = {}  # each program step printed once for the three functions
         out = _program_function("velocity", steps, outputs[:3], params, printed)
         out += _program_function("gradient", steps, outputs[3:], params, printed)
         out += _program_function("velocity_gradient", steps, outputs, params, printed)
-    else:
+    else:  # as before: small formulas, and large polynomials (Lamb flows of high degree) keep their numbers
         grads = [sp.diff(e, c) for e in exprs for c in COORDS]
-        out = []
-        for name, group in (("velocity", exprs), ("gradient", grads), ("velocity_gradient", exprs + grads)):
-            out += _function(name, group, params)
+        out = _function("velocity", exprs, params) + _function("gradient", grads, params)
+        # a joint cse of 12 large polynomials costs seconds; calling both lets LLVM share what it finds
+        out += _function("velocity_gradient", exprs + grads, params) if not large else _PAIR.splitlines() + [""]
     return "\n".join(out) + "\n" + splitting_source(exprs, params)
 
 
-#: Formulas with more operations than this (sympy's count_ops over the three components) get
-#: ``velocity`` and ``gradient`` from the chain-rule program too (whole-expression derivatives
-#: and cse's preprocessing grow much faster than linearly with the size).
+_PAIR = """@njit(cache=CACHE, error_model="numpy")
+def velocity_gradient(x, y, z, t, _params):
+    u = velocity(x, y, z, t, _params)
+    g = gradient(x, y, z, t, _params)
+    return (u[0], u[1], u[2], g[0], g[1], g[2], g[3], g[4], g[5], g[6], g[7], g[8])
+"""
+
+#: Non-polynomial formulas with more operations than this (sympy's count_ops over the three
+#: components) get all three functions from the chain-rule program (whole-expression derivatives
+#: and cse's preprocessing grow much faster than linearly with the size); large polynomials keep
+#: the established printing, their ``velocity_gradient`` calling ``velocity`` and ``gradient``.
 LARGE_OPS = 400
 
 
