@@ -620,7 +620,7 @@ def _free_decay_result(L=3, N=16):
     return SimpleNamespace(mode=mode, orders=[0, 1], domain="ball", resolution=[L, N], rm=None), k1
 
 
-def _closed_form_field(k1):
+def _closed_form_field(k1, toroidal=True):
     """B = curl curl(S x) + curl(T x) in Cartesian sympy: S = j_1(pi r) Y_10 inside, j_1(pi) r^-2 Y_10
     outside (the potential dipole); T = j_1(k1 r) Re Y_11 inside, 0 outside. Y_10 = sqrt(3/4pi) z/r,
     Re Y_11 = sqrt(3/8pi) x/r (orthonormal, no Condon-Shortley phase)."""
@@ -631,7 +631,7 @@ def _closed_form_field(k1):
     curl = lambda F: sp.Matrix([sp.diff(F[2], y) - sp.diff(F[1], z), sp.diff(F[0], z) - sp.diff(F[2], x),  # noqa: E731
                                 sp.diff(F[1], x) - sp.diff(F[0], y)])
     y10, y11 = sp.sqrt(sp.Rational(3, 4) / sp.pi) * z / r, sp.sqrt(sp.Rational(3, 8) / sp.pi) * x / r
-    inside = curl(curl(j1(sp.pi * r) * y10 * X)) + curl(j1(k1 * r) * y11 * X)
+    inside = curl(curl(j1(sp.pi * r) * y10 * X)) + (curl(j1(k1 * r) * y11 * X) if toroidal else sp.zeros(3, 1))
     outside = curl(curl(j1(sp.pi) * r ** -2 * y10 * X))
     return sp.lambdify((x, y, z), inside, "numpy"), sp.lambdify((x, y, z), outside, "numpy")
 
@@ -664,6 +664,20 @@ def test_ball_mode_field_against_closed_forms_and_its_potential_exterior():
     assert np.abs(a - b).max() < 1e-7 * np.abs(a).max()
     with pytest.raises(FlowkitError, match="ball dynamo result"):
         evaluate_field(flowkit_growth_box(), Xin)
+    # the solver's own free-decay mode (no flow): rate -pi^2 and, up to a factor, the dipole closed form
+    import flowkit
+
+    free = flowkit.growth_rate(flowkit.flow("hill", strength=0.0, swirl=0.0), rm=1.0, resolution=(4, 16),
+                               keep_mode=True, check_resolution=None)
+    assert free.growth_rate == pytest.approx(-math.pi ** 2, abs=1e-8)
+    c = free.mode[0] + 1j * free.mode[1]
+    phase = float(np.angle(c.ravel()[np.argmax(np.abs(c))]))
+    dip_in, dip_out = _closed_form_field(k1, toroidal=False)
+    for X, f in ((Xin, dip_in), (Xout, dip_out)):
+        ref = np.array([np.ravel(f(*p)) for p in X])
+        got = evaluate_field(free, X, phase=phase)
+        scale = np.sum(got * ref) / np.sum(ref * ref)
+        assert np.abs(got - scale * ref).max() < 1e-8 * np.abs(got).max()
 
 
 def flowkit_growth_box():
