@@ -293,3 +293,19 @@ def test_cli_error_norm_position_matches_the_api(capsys, tmp_path):
                      settings=IntegratorSettings(rtol=1e-9, atol=1e-11))
     np.testing.assert_array_equal(back.values, api.values)
     assert back.provenance["method"]["error_norm"] == "position"
+
+
+@pytest.mark.filterwarnings("ignore::flowkit.errors.FlowkitNotice")
+def test_family_without_fused_function_uses_the_fallback():
+    # an untraceable Python function (finite-difference gradient, no generated velocity_gradient): the FTLE
+    # kernel falls back to calling velocity and gradient. Hyperbolic strain u = (x, -y, 0): J = diag(e^T,
+    # e^-T, 1), so the FTLE is exactly 1 (exact identity), to the finite-difference gradient's accuracy.
+    def strain(x, y, z, t, p):
+        if x > 1e300:                      # a branch on a coordinate: sympy cannot trace it
+            return (0.0, 0.0, 0.0)
+        return (x, -y, 0.0)
+
+    f = flowkit.custom_flow(strain, name="strain_fd", kind="system")
+    assert "differences" in f.family.gradient_method
+    field = ftle_field(f, TILTED, (3, 3), 2.0, settings=TIGHT)
+    np.testing.assert_allclose(field.values, 1.0, atol=1e-8)
