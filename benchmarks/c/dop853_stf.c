@@ -8,7 +8,11 @@
  * and no crossing location: a crossing is counted when y changes sign over an accepted
  * step, so this is the cost floor of the stepping itself.
  *
- * usage: dop853_stf CROSSINGS ROTATION RTOL ATOL   -> prints attempts accepted crossings seconds t
+ * Compiled with -DNCOL=k the state also carries k tangent vectors v (dv/dt = (grad u) v, the
+ * columns of the identity at the start), N = 3 + 3k components, all in the error norm: the loop
+ * flowkit runs for 6 (k = 1) and 12 (k = 3) components.
+ *
+ * usage: dop853_stf CROSSINGS ROTATION RTOL ATOL [T_END]   -> prints attempts accepted crossings seconds t
  */
 #include <math.h>
 #include <stdio.h>
@@ -17,7 +21,10 @@
 
 #include "dop853_tableau.h"   /* A[16][16], B[12], C[16], E5[13], E3[13] */
 
-#define N 3
+#ifndef NCOL
+#define NCOL 0
+#endif
+#define N (3 + 3 * NCOL)
 
 static double rot;
 
@@ -27,6 +34,18 @@ static inline void f(double t, const double *y, double *dy) {
     dy[0] = rot * z - 8.0 * x * yy;
     dy[1] = 11.0 * x * x + 3.0 * yy * yy + z * z - 3.0;
     dy[2] = -rot * x + 2.0 * yy * z;
+#if NCOL > 0
+    /* gradient, row-major g[i][j] = du_i/dx_j */
+    double g0 = -8.0 * yy, g1 = -8.0 * x, g2 = rot, g3 = 22.0 * x, g4 = 6.0 * yy, g5 = 2.0 * z;
+    double g6 = -rot, g7 = 2.0 * z, g8 = 2.0 * yy;
+    for (int c = 0; c < NCOL; c++) {
+        const double *v = y + 3 + 3 * c;
+        double *dv = dy + 3 + 3 * c;
+        dv[0] = g0 * v[0] + g1 * v[1] + g2 * v[2];
+        dv[1] = g3 * v[0] + g4 * v[1] + g5 * v[2];
+        dv[2] = g6 * v[0] + g7 * v[1] + g8 * v[2];
+    }
+#endif
 }
 
 static double K[13][N];
@@ -84,13 +103,15 @@ int main(int argc, char **argv) {
     long want = argc > 1 ? atol(argv[1]) : 40000;
     rot = argc > 2 ? atof(argv[2]) : 0.1;
     double rtol = argc > 3 ? atof(argv[3]) : 1e-10, atl = argc > 4 ? atof(argv[4]) : 1e-12;
+    double tend = argc > 5 ? atof(argv[5]) : INFINITY;
     double y[N] = {0.1, 0.0, 0.3}, ynew[N], t = 0.0;
+    for (int c = 0; c < NCOL; c++) y[3 + 3 * c + c] = 1.0;
     struct timespec a, b;
     clock_gettime(CLOCK_MONOTONIC, &a);
     f(t, y, K[0]);
     double h = initial_step(t, y, rtol, atl);
     long attempts = 0, accepted = 0, crossings = 0;
-    while (crossings < want) {
+    while (crossings < want && t < tend) {
         double err = attempt(t, y, h, rtol, atl, ynew);
         attempts++;
         if (err <= 1.0) {

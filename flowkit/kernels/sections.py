@@ -46,10 +46,10 @@ from flowkit.integrate.tableau import W_ROWS
 from flowkit.kernels._stub import CACHE, njit, prange  # flowkit:stub
 from flowkit.kernels.sections_plane import (  # flowkit:stub
     SEC_D, SEC_KIND, SEC_LAM, SEC_MAX_ROOTS, SEC_NX, SEC_NY, SEC_NZ, SEC_PERIOD, SEC_PHASE,  # flowkit:stub
-    SEC_SAMPLES, sec_dense_roots, sec_outside, sec_end_speed, sec_near, sec_store,  # flowkit:stub
+    SEC_SAMPLES, sec_dense_roots, sec_outside, sec_end_speed, sec_may_cross, sec_store,  # flowkit:stub
 )  # flowkit:stub
 from flowkit.kernels.steppers import (  # flowkit:stub
-    dop853_advance, dop853_dense_eval, dop853_dense_prepare, dop853_initial_step, rhs,  # flowkit:stub
+    dop853_dense_eval, dop853_initial_step, rhs,  # flowkit:stub
 )  # flowkit:stub
 
 
@@ -82,7 +82,7 @@ def sec_orbit_dop853(y, t0, t_lim, p, rtol, atol, hmax, max_steps, bounded, plan
         if t + h >= t_lim:
             h = t_lim - t
             last = True
-        status, hused, hnext = dop853_advance(t, y, h, p, rtol, atol, hmax, W)
+        status, hused, hnext = dop853_advance_3(t, y, h, p, rtol, atol, hmax, W)  # noqa: F821
         if status != 0:
             return status, count, t, steps
         steps += 1
@@ -95,7 +95,7 @@ def sec_orbit_dop853(y, t0, t_lim, p, rtol, atol, hmax, max_steps, bounded, plan
                 if ts > t_new:
                     break
                 if not prepared:
-                    dop853_dense_prepare(t, hused, y, p, W)
+                    dop853_dense_prepare_3(t, hused, y, p, W)  # noqa: F821 (generated)
                     prepared = True
                 if ts == t_new:
                     state[0] = y[0]
@@ -109,8 +109,10 @@ def sec_orbit_dop853(y, t0, t_lim, p, rtol, atol, hmax, max_steps, bounded, plan
                     return 4, count, ts, steps
         else:
             speed = sec_end_speed(W)
-            if sec_near(S_old, S_new, lam, 1.5 * abs(hused) * speed):
-                dop853_dense_prepare(t, hused, y, p, W)
+            m0 = hused * (nx * W[0, 0] + ny * W[0, 1] + nz * W[0, 2])
+            m1 = hused * (nx * W[12, 0] + ny * W[12, 1] + nz * W[12, 2])
+            if sec_may_cross(S_old, S_new, lam, 1.5 * abs(hused) * speed, m0, m1):
+                dop853_dense_prepare_3(t, hused, y, p, W)  # noqa: F821 (generated)
                 nr = sec_dense_roots(W, plane, S_old, S_new, th, val, rth, rdir, scratch[6])
                 for r in range(nr):
                     if steps == 1 and rth[r] == 0.0:
