@@ -84,6 +84,30 @@ def breakdown(flow, rm, res, m=None) -> dict:
             "growth_rate": out["eigenvalue"].real, "load": load()}
 
 
+def lu_choice(res) -> dict:
+    """One stf family (all orders coupled): SuperLU (COLAMD) against a dense real LU of the same shifted block."""
+    import scipy.sparse as sps
+    from scipy.linalg import lu_factor
+    from scipy.sparse.linalg import splu
+
+    from flowkit.dynamo.sphere import parts as store
+
+    op = BallOperator(flowkit.flow("stf", rotation=0.3), 140.0, *res)
+    blocks, _ = store.real_blocks(op, store.operator_parts(op))
+    B = blocks[0][1].tocsc()
+    n = B.shape[0]
+    t0 = time.perf_counter()
+    lu = splu((B - 0.5 * sps.identity(n, format="csc")).tocsc())
+    t1 = time.perf_counter()
+    dense = B.toarray()
+    dense.flat[:: n + 1] -= 0.5
+    t2 = time.perf_counter()
+    lu_factor(dense, overwrite_a=True, check_finite=False)
+    t3 = time.perf_counter()
+    return {"resolution": list(res), "unknowns": n, "nnz": int(B.nnz), "superlu_s": t1 - t0,
+            "superlu_fill": int(lu.L.nnz + lu.U.nnz), "dense_lu_s": t3 - t2, "load": load()}
+
+
 def table(flow, rm, ladder, **kw) -> list:
     return [timed(flow, rm, res, **kw) for res in ladder]
 
@@ -173,6 +197,8 @@ def main(quick: bool, stf_only: bool) -> None:
     print({k: out[k] for k in out if k.endswith("critical")}, flush=True)
     res = (8, 8) if quick else (14, 14)
     stf = flowkit.flow("stf", rotation=0.3)
+    out["lu_choice"] = [lu_choice(r) for r in ([(10, 10)] if quick else [(14, 14), (16, 16)])]
+    print(out["lu_choice"], flush=True)
     out["stf_breakdown"] = breakdown(stf, 140.0, res)
     store._STORE.clear()
     out["stf_eigenvalue"] = {"first": timed(stf, 140.0, res), "second_rm": timed(stf, 141.0, res)}
