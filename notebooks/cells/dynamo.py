@@ -112,29 +112,28 @@ meridional circulation (Hill's-vortex type, pressure harmonic P1_0) and a
 differential swirl (toroidal harmonic T2_0). **New results, not published
 anywhere** (all orders coupled; `benchmarks/bench_dynamo_sphere.py --stf-only`):
 
-**stf at rotation 0.3 is a dynamo: Rm_c = 139.5 ± 2**, a steady mode (frequency 0).
-Onset per resolution (secant on the growth rate to 1e-6):
+**stf at rotation 0.3 is a dynamo: Rm_c = 141.5 ± 1.5**, a steady mode (frequency 0).
+Onset per resolution:
 
-| (L, N) | Rm_c | growth rate at Rm = 138.5 / 140 |
-|---|---|---|
-| (12, 12) | 136.08 | – |
-| (14, 14) | 139.40 | – |
-| (16, 16) | 138.68 | – |
-| (18, 18) | 139.83 | – |
-| (20, 20) | 139.44 | −0.156 / +0.093 |
-| (16, 20) | 137.11 | +0.241 / +0.502 |
-| (20, 16) | 141.07 | −0.416 / −0.173 |
+| series | Rm_c at each resolution |
+|---|---|
+| L = N: (12, 12) … (20, 20), (24, 24) | 136.08, 139.40, 138.68, 139.83, 139.44, 140.24* |
+| L = 16, 20, 24, 28 at N = 20 | 137.11, 139.44, 140.53*, 141.12* |
+| N = 16, 20, 24 at L = 20 | 141.07, 139.44, 139.14* |
 
-The diagonal (L = N) settles within ±0.6 of 139.4 from (14, 14) on, but raising
-L alone (16 → 20) moves the onset up by about 2.4 and raising N alone down by
-about 1.6: the stated ± 2 covers that spread, not only the diagonal's.
+(* from one growth rate near the onset and the slope dσ/dRm = 0.167 of (20, 20); the others by
+secant iterations to |σ| < 1e-6.)
 
-**stf at rotation 0.1: no onset below Rm = 160** (growth rate −13.48 / −12.58 /
-−13.03 at (12, 12) / (14, 14) / (16, 16)); at Rm = 240 the (16, 16) rate is −8.75,
-while (12, 12) and (14, 14) have spurious growing modes (rates 300–500, frequencies
-near 270–310) that change from one resolution to the next, and at Rm = 320 so has
-(16, 16): the resolution check flags them, and above Rm = 160 only resolutions
-beyond (16, 16) can say more. The levitated droplet has no dynamo up to Rm = 200.
+Raising N converges fast (−1.63 then −0.30 per 4 nodes), raising L slowly (+2.33, +1.09, +0.59
+per 4 degrees, a ratio near 0.5): the finest values are 141.1 (L = 28) and 140.2 (L = N = 24);
+with the geometric tails of both series about 141.4, and the ± 1.5 covers a slower L tail.
+
+**stf at rotation 0.1: no onset up to Rm = 240** (growth rate −13.48 / −12.58 / −13.03 at
+Rm = 160 with (12, 12) / (14, 14) / (16, 16), −8.75 / −8.35 / −8.59 at Rm = 240 with (16, 16) /
+(18, 18) / (20, 20)). At Rm = 240 the coarser (12, 12) and (14, 14) carry spurious growing modes
+(rates 300–500, frequencies near 270–310) that change from one resolution to the next, as does
+(16, 16) at Rm = 320: the resolution check flags them. The levitated droplet has no dynamo up to
+Rm = 200.
 The cell below redoes a small scan (quick sizes under FLOWKIT_QUICK=1).
 """),
     code("""
@@ -178,8 +177,10 @@ its sum is formed for each Rm of the search.
 """),
     code("""
 res_o = size((16, 16), (10, 10))
+# guesses=[0j]: shift-invert next to sigma = 0, where the onset's eigenvalue is (no coarse-resolution shifts)
 onset_stf = critical_rm(droplets["stf, rotation 0.3"], size([136, 142], [145, 155]), resolution=res_o,
-                        xtol=size(1e-4, 2e-2), progress=False, check_resolution=size((14, 14), None))
+                        xtol=size(1e-4, 2e-2), progress=False, check_resolution=size((14, 14), None),
+                        guesses=[0j])
 print(onset_stf)"""),
     md("""
 ## Beside it: the perfect-conductor (ideal) estimates of the same flows
