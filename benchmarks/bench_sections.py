@@ -17,6 +17,7 @@ recorded because the cores may be shared.
 
 from __future__ import annotations
 
+import math
 import os
 import sys
 import time
@@ -65,9 +66,11 @@ def scipy_rate(flow, n_cross: int = 100, wrapped: bool = False) -> tuple[float, 
     # the time span that holds about n_cross crossings (from a flowkit run)
     ref = poincare_section(flow, SEED[None], PLANE, crossings=n_cross, rtol=RTOL, atol=ATOL, threads=1)
     T = float(ref.time[-1]) + 1e-3
-    t0 = time.perf_counter()
-    sol = solve_ivp(rhs, (0.0, T), SEED, method="DOP853", rtol=RTOL, atol=ATOL, events=event)
-    dt = time.perf_counter() - t0
+    dt = math.inf
+    for _ in range(3):  # best of three, as flowkit's figure (the machine may be shared)
+        t0 = time.perf_counter()
+        sol = solve_ivp(rhs, (0.0, T), SEED, method="DOP853", rtol=RTOL, atol=ATOL, events=event)
+        dt = min(dt, time.perf_counter() - t0)
     n = len(sol.t_events[0])
     return n / dt, n
 

@@ -140,7 +140,7 @@ def main() -> int:
                 fk.append(best_of(lambda: integrate_states(flow, Y.copy(), 0.0, T_TANGENT, S, threads=1), repeat=1))
             res = integrate_states(flow, Y.copy(), 0.0, T_TANGENT, S, threads=1)
             stepper[n] = {"seconds": min(fk), "steps": int(res.steps[0]), "ns_per_step": 1e9 * min(fk) / int(res.steps[0]),
-                          "outcome": res.outcome_names()[0], "t_end": T_TANGENT}
+                          "outcomes": res.outcomes, "t_end": T_TANGENT}
             if have_c:
                 b = _best(runs)
                 c[n] = {**b, "ns_per_accepted_step": 1e9 * b["seconds"] / b["accepted"]}
