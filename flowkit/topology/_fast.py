@@ -134,6 +134,19 @@ def _cells(M, cut):
     return C, span, key[order], order
 
 
+@njit(cache=True, inline="always")
+def _correction(P, i, Q, j, dx, dy, dz, r2):
+    """Exact solid angle minus the rule's value for segment i of P and j of Q, and their distance."""
+    i1 = i + 1 if i + 1 < P.shape[0] else 0
+    j1 = j + 1 if j + 1 < Q.shape[0] else 0
+    sxi, syi, szi = P[i1, 0] - P[i, 0], P[i1, 1] - P[i, 1], P[i1, 2] - P[i, 2]
+    sxj, syj, szj = Q[j1, 0] - Q[j, 0], Q[j1, 1] - Q[j, 1], Q[j1, 2] - Q[j, 2]
+    mid = _rule(dx, dy, dz, sxi, syi, szi, sxj, syj, szj)[0] if r2 > 0.0 else 0.0
+    om = _omega(P[i, 0], P[i, 1], P[i, 2], P[i1, 0], P[i1, 1], P[i1, 2],
+                Q[j, 0], Q[j, 1], Q[j, 2], Q[j1, 0], Q[j1, 1], Q[j1, 2])
+    return om - mid, segment_distance(P[i], P[i1], Q[j], Q[j1])
+
+
 @njit(cache=True, parallel=True)
 def near_rows(P, M, cut, rows, dmin, jmin, counts):
     """Exact solid angle minus the rule's value for near pairs (midpoint distance < cut), per row.
@@ -168,15 +181,9 @@ def near_rows(P, M, cut, rows, dmin, jmin, counts):
                         r2 = dx * dx + dy * dy + dz * dz
                         if r2 >= cut2:
                             continue
-                        j1 = j + 1 if j + 1 < n else 0
-                        sxi, syi, szi = P[i1, 0] - P[i, 0], P[i1, 1] - P[i, 1], P[i1, 2] - P[i, 2]
-                        sxj, syj, szj = P[j1, 0] - P[j, 0], P[j1, 1] - P[j, 1], P[j1, 2] - P[j, 2]
-                        mid = _rule(dx, dy, dz, sxi, syi, szi, sxj, syj, szj)[0] if r2 > 0.0 else 0.0
-                        om = _omega(P[i, 0], P[i, 1], P[i, 2], P[i1, 0], P[i1, 1], P[i1, 2],
-                                    P[j, 0], P[j, 1], P[j, 2], P[j1, 0], P[j1, 1], P[j1, 2])
-                        acc += om - mid
+                        c, d = _correction(P, i, P, j, dx, dy, dz, r2)
+                        acc += c
                         cnt += 1
-                        d = segment_distance(P[i], P[i1], P[j], P[j1])
                         if d < best:
                             best = d
                             bj = j
@@ -210,7 +217,6 @@ def near_rows_two(P, MP, Q, MQ, cut, rows, dmin, jmin, counts):
     both = np.concatenate((MQ, MP))  # one grid origin for both curves
     C, span, skey, order = _cells(both, cut)
     for i in prange(n):
-        i1 = i + 1 if i + 1 < n else 0
         acc = 0.0
         best = math.inf
         bj = -1
@@ -232,15 +238,9 @@ def near_rows_two(P, MP, Q, MQ, cut, rows, dmin, jmin, counts):
                         r2 = dx * dx + dy * dy + dz * dz
                         if r2 >= cut2:
                             continue
-                        j1 = j + 1 if j + 1 < m else 0
-                        sxi, syi, szi = P[i1, 0] - P[i, 0], P[i1, 1] - P[i, 1], P[i1, 2] - P[i, 2]
-                        sxj, syj, szj = Q[j1, 0] - Q[j, 0], Q[j1, 1] - Q[j, 1], Q[j1, 2] - Q[j, 2]
-                        mid = _rule(dx, dy, dz, sxi, syi, szi, sxj, syj, szj)[0] if r2 > 0.0 else 0.0
-                        om = _omega(P[i, 0], P[i, 1], P[i, 2], P[i1, 0], P[i1, 1], P[i1, 2],
-                                    Q[j, 0], Q[j, 1], Q[j, 2], Q[j1, 0], Q[j1, 1], Q[j1, 2])
-                        acc += om - mid
+                        c, d = _correction(P, i, Q, j, dx, dy, dz, r2)
+                        acc += c
                         cnt += 1
-                        d = segment_distance(P[i], P[i1], Q[j], Q[j1])
                         if d < best:
                             best = d
                             bj = j

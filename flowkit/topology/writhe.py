@@ -25,7 +25,7 @@ from flowkit.errors import FlowkitError
 from flowkit.integrate.batch import thread_limit
 from flowkit.topology import _fast as K2
 from flowkit.topology import _kernels as K
-from flowkit.topology.curves import ClosedCurve, closed_curve
+from flowkit.topology.curves import closed_curve
 
 #: touching is declared when two non-neighbouring segments come closer than this times the curve's size
 TOUCH = 1e-9
