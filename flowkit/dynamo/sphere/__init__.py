@@ -10,10 +10,13 @@ of a band-limited flow are integrated exactly.
 Module map: ``basis`` (radial basis, boundary conditions, diffusion), ``harmonics``
 (Legendre tables, vector transforms, grid sizes), ``flowcheck`` (what the solver
 needs of a flow), ``operator`` (the induction operator), ``sparse`` (the operator
-as a sparse matrix by colouring), ``eigen`` (shift-invert and propagator Arnoldi),
+as a sparse matrix by colouring), ``parts`` (``D + Rm K`` built once per flow and
+resolution), ``families`` (real form and decoupled families), ``eigen`` (shift-invert
+and propagator Arnoldi),
 ``march`` (time stepping and fit), ``growth`` (the public solve with its
 resolution check), ``mode`` (the field of a mode anywhere), ``flows`` (the
-benchmark flows t1s1 and t2s2 of Proc. R. Soc. Lond. A 425, 1989).
+benchmark flows t1s1 and t2s2 of Proc. R. Soc. Lond. A 425, 1989; their formulas are
+presets in :mod:`flowkit.flows.sphere_benchmarks`).
 Use it through :func:`flowkit.dynamo.growth_rate` (it dispatches on ``flow.domain``).
 """
 

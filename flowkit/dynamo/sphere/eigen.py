@@ -1,10 +1,13 @@
 """Leading eigenvalues of the ball induction operator, three independent ways.
 
-- ``shift_invert`` (one order ``m`` of an axisymmetric flow): the operator is built
-  densely (all columns in one batched application); small blocks go to LAPACK
-  ``eig``, larger ones are LU-factorised at shifts next to the leading eigenvalues
-  of a coarse resolution, and ARPACK (``scipy.sparse.linalg.eigs``, shift-invert)
-  converges the eigenvalues nearest them.
+- ``shift_invert`` / ``solve_families`` (steady flows): the operator ``D + Rm K`` (parts kept
+  across calls, :mod:`~flowkit.dynamo.sphere.parts`) in real form, split into its decoupled
+  families (:mod:`~flowkit.dynamo.sphere.families`); blocks up to :data:`DENSE_MAX` unknowns
+  go to LAPACK ``eig``, larger ones to shift-invert ARPACK (``scipy.sparse.linalg.eigs``) with
+  an LU of the shifted block (LAPACK for dense blocks, SuperLU for sparse ones) at shifts next
+  to ``guesses`` (default: the leading eigenvalues of a coarse resolution) and at ``shift``.
+  In an Rm search pass the previous eigenvalue as ``guesses=[...]`` and ``shift=None``: one
+  real factorisation per family, no coarse solve.
 - ``propagator`` (any flow, all orders coupled, or time-periodic): ARPACK on the
   propagator ``exp(tau A)`` (largest modulus = largest real part), applied by the
   time stepper of :mod:`~flowkit.dynamo.sphere.march`; the eigenvalue is then the

@@ -16,6 +16,7 @@ holds at most ``STORE_BYTES`` (least recently used entries leave first).
 from __future__ import annotations
 
 import hashlib
+import threading
 from collections import OrderedDict
 
 import numpy as np
@@ -26,6 +27,7 @@ from flowkit.dynamo.sphere.families import families, real_coupled, real_phases
 #: Memory kept for operator parts across calls (bytes).
 STORE_BYTES = 1.5e9
 _STORE: OrderedDict = OrderedDict()
+_LOCK = threading.Lock()  # the lab's explorers solve in worker threads
 
 
 def _key(op) -> tuple:
@@ -89,9 +91,10 @@ def operator_parts(op) -> dict:
     decoupled blocks of the real form.
     """
     key = _key(op)
-    if key in _STORE:
-        _STORE.move_to_end(key)
-        return _STORE[key]
+    with _LOCK:
+        if key in _STORE:
+            _STORE.move_to_end(key)
+            return _STORE[key]
     D = diffusion_matrix(op)
     if op.m is None:
         from flowkit.dynamo.sphere.sparse import sparse_matrix
@@ -106,9 +109,10 @@ def operator_parts(op) -> dict:
         p = real_phases(full)
         fams = families(full if p is None else (np.conj(p)[:, None] * full * p[None, :]))
         entry = {"D": D, "K": K, "real": p, "families": fams}
-    _STORE[key] = entry
-    while len(_STORE) > 1 and sum(_size(e) for e in _STORE.values()) > STORE_BYTES:
-        _STORE.popitem(last=False)
+    with _LOCK:
+        _STORE[key] = entry
+        while len(_STORE) > 1 and sum(_size(e) for e in _STORE.values()) > STORE_BYTES:
+            _STORE.popitem(last=False)
     return entry
 
 
