@@ -117,7 +117,7 @@ Onset per resolution:
 
 | series | Rm_c at each resolution |
 |---|---|
-| L = N: (12, 12) … (20, 20), (24, 24) | 136.08, 139.40, 138.68, 139.83, 139.44, 140.24* |
+| L = N: (12, 12) … (20, 20), (24, 24), (28, 28) | 136.08, 139.40, 138.68, 139.83, 139.44, 140.24*, 140.74* |
 | L = 16, 20, 24, 28 at N = 20 | 137.11, 139.44, 140.53*, 141.12* |
 | N = 16, 20, 24 at L = 20 | 141.07, 139.44, 139.14* |
 
@@ -125,7 +125,7 @@ Onset per resolution:
 secant iterations to |σ| < 1e-6.)
 
 Raising N converges fast (−1.63 then −0.30 per 4 nodes), raising L slowly (+2.33, +1.09, +0.59
-per 4 degrees, a ratio near 0.5): the finest values are 141.1 (L = 28) and 140.2 (L = N = 24);
+per 4 degrees, a ratio near 0.5): the finest values are 141.1 at (28, 20) and 140.7 at (28, 28);
 with the geometric tails of both series about 141.4, and the ± 1.5 covers a slower L tail.
 
 **stf at rotation 0.1: no onset up to Rm = 240** (growth rate −13.48 / −12.58 / −13.03 at
