@@ -8,7 +8,7 @@ import flowkit
 from flowkit.errors import FlowkitError
 from flowkit.integrate.batch import IntegratorSettings, integrate_states
 from flowkit.integrate.outcomes import Outcome
-from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5, work_array
+from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5, W_ROWS, W_YTMP, work_array
 
 
 def test_dop853_tableau_order_conditions():
@@ -67,9 +67,9 @@ def test_dense_output_matches_exact_solution_inside_a_step(rotation_flow):
         np.testing.assert_allclose(out, ref, atol=1e-12)
 
 
-@pytest.mark.parametrize("n", [3, 6])
+@pytest.mark.parametrize("n", [3, 6, 12])
 def test_unrolled_step_is_bitwise_the_generic_formula(n):
-    # The unrolled steps (generated straight-line code for 3 and 6 components) must give
+    # The unrolled steps (generated straight-line code for 3, fixed-count loops for 6 and 12) must give
     # exactly the numbers of the generic loops: reference = the same sums in the same order,
     # written out here in Python floats (IEEE double, like the kernel) from the stage rows
     # the generic loop produces.
@@ -79,7 +79,7 @@ def test_unrolled_step_is_bitwise_the_generic_formula(n):
     h, rtol, atol = 0.173, 1e-9, 1e-12
     W = work_array(n)
     k.rhs(0.0, y, p, W[0])
-    err = k.dop853_try(0.0, y, h, p, rtol, atol, W)  # 3 or 6 components: the unrolled copy
+    err = k.dop853_try(0.0, y, h, p, rtol, atol, W)  # 3, 6 or 12 components: the unrolled copy
     R = work_array(n)
     R[0] = W[0]
     k.dop853_stages(0.0, y, h, p, R, 1, 12)  # the generic stage loop
@@ -94,6 +94,24 @@ def test_unrolled_step_is_bitwise_the_generic_formula(n):
         e5 += (sum_in_order(DOP_E5, R[:13, i]) / sc) ** 2
         e3 += (sum_in_order(DOP_E3, R[:13, i]) / sc) ** 2
     assert err == abs(h) * e5 / np.sqrt((e5 + 0.01 * e3) * n)
+
+
+def test_unrolled_dense_output_is_bitwise_the_generic_loops():
+    # dop853_dense_prepare_3 (generated straight-line code, used by the section kernels) must fill
+    # the dense-output rows with exactly the numbers of the generic loops of dop853_dense_prepare.
+    flow = flowkit.flow("stf", rotation=0.37)
+    k, p = flow.kernels, flow.params
+    rows = []
+    for prepare in (k.dop853_dense_prepare, k.dop853_dense_prepare_3):
+        y = np.array([0.31, -0.22, 0.45])
+        W = work_array(3)
+        k.rhs(0.0, y, p, W[0])
+        status, h, _ = k.dop853_advance(0.0, y, 0.05, p, 1e-9, 1e-12, np.inf, W)
+        assert status == 0
+        prepare(0.0, h, y, p, W)
+        rows.append(W.copy())
+    keep = np.arange(W_ROWS) != W_YTMP  # every row but the generic loop's scratch (stage argument)
+    np.testing.assert_array_equal(rows[0][keep], rows[1][keep])
 
 
 def sum_in_order(coeffs, values) -> float:
