@@ -91,8 +91,6 @@ def dop853_try(t, y, h, p, rtol, atol, W):
         return dop853_try_3(t, y, h, p, rtol, atol, W)  # noqa: F821 (generated template)
     if n == 6:
         return dop853_try_6(t, y, h, p, rtol, atol, W)
-    if n == 12:
-        return dop853_try_12(t, y, h, p, rtol, atol, W)
     K = W
     dop853_stages(t, y, h, p, W, 1, 12)
     ynew = W[W_YNEW]
@@ -179,61 +177,6 @@ def dop853_try_6(t, y, h, p, rtol, atol, W):
     if e5 == 0.0 and e3 == 0.0:
         return 0.0
     return abs(h) * e5 / math.sqrt((e5 + 0.01 * e3) * 6)
-
-
-@njit(cache=CACHE)
-def _frame_rhs(t, q, p, W, s):
-    """Position and three tangent vectors (``q[0:12]``): their derivative into ``W[s, 0:12]`` as :func:`rhs` sums it."""
-    u, v, w = velocity(q[0], q[1], q[2], t, p)
-    g = gradient(q[0], q[1], q[2], t, p)
-    W[s, 0] = u
-    W[s, 1] = v
-    W[s, 2] = w
-    for c in range(3):
-        o = 3 + 3 * c
-        a0 = q[o]
-        a1 = q[o + 1]
-        a2 = q[o + 2]
-        W[s, o] = g[0] * a0 + g[1] * a1 + g[2] * a2
-        W[s, o + 1] = g[3] * a0 + g[4] * a1 + g[5] * a2
-        W[s, o + 2] = g[6] * a0 + g[7] * a1 + g[8] * a2
-
-
-@njit(cache=CACHE)
-def dop853_try_12(t, y, h, p, rtol, atol, W):
-    """:func:`dop853_try` for 12 components (position + deformation gradient): the generic loops with
-    the count fixed (LLVM unrolls them), sums in the same order: bitwise the generic numbers."""
-    tmp = W[W_YTMP]
-    for s in range(1, 12):
-        for i in range(12):
-            acc = 0.0
-            for j in range(s):
-                acc += DOP_A[s, j] * W[j, i]
-            tmp[i] = y[i] + h * acc
-        _frame_rhs(t + DOP_C[s] * h, tmp, p, W, s)
-    ynew = W[W_YNEW]
-    for i in range(12):
-        acc = 0.0
-        for j in range(12):
-            acc += DOP_B[j] * W[j, i]
-        ynew[i] = y[i] + h * acc
-    _frame_rhs(t + h, ynew, p, W, 12)
-    e5 = 0.0
-    e3 = 0.0
-    for i in range(12):
-        sc = atol + rtol * max(abs(y[i]), abs(ynew[i]))
-        b5 = 0.0
-        b3 = 0.0
-        for j in range(13):
-            b5 += DOP_E5[j] * W[j, i]
-            b3 += DOP_E3[j] * W[j, i]
-        e5 += (b5 / sc) ** 2
-        e3 += (b3 / sc) ** 2
-    if not (math.isfinite(e5) and math.isfinite(e3)):
-        return np.nan
-    if e5 == 0.0 and e3 == 0.0:
-        return 0.0
-    return abs(h) * e5 / math.sqrt((e5 + 0.01 * e3) * 12)
 
 
 @njit(cache=CACHE)
