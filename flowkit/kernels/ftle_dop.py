@@ -52,7 +52,7 @@ def _vg_rate2(t, x, y, z, a, c, b, d, p, W, s):
     W[s, 7] = g[6] * b + g[7] * d
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath={"contract"})
 def _vg_rate3(t, q, p, W, s):
     """3-D rate of the state ``q`` (12-tuple) into ``W[s]``: velocity and (grad u) J column by column."""
     g = velocity_gradient(q[0], q[1], q[2], t, p)
@@ -129,7 +129,7 @@ def _ftle_try2(t, y, h, p, rtol, atol, W, nerr):
     return _ftle_norm(y, W, rtol, atol, h, nerr)
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, fastmath={"contract"})
 def _ftle_try3(t, y, h, p, rtol, atol, W, nerr):
     """One DOP853 attempt of the 3-D state (12 numbers, W[0] = f(t, y) set); returns the error measure."""
     for s in range(1, 12):
