@@ -5,9 +5,10 @@ gradient (J00, J10, J01, J11): six numbers. Written out stage by stage with the
 tableau coefficients as literals and the stages in scalar locals, one attempt costs
 about the arithmetic itself, where the loops of :func:`_ftle_try2
 <flowkit.kernels.ftle_dop>` spend much of it on bookkeeping. The sums run in the
-order of the generic loops (zero coefficients skipped, which adds nothing), so the
-numbers are those of :func:`flowkit.kernels.steppers.dop853_try` on the nine-column
-planar layout, given the same right-hand side.
+order of the generic loops (zero coefficients skipped, which adds nothing); LLVM may
+contract multiply-adds (deterministic, thread-independent), so the numbers are those
+of :func:`flowkit.kernels.steppers.dop853_try` on the nine-column planar layout up to
+round-off, and the accepted steps are the same (tests/test_ftle.py).
 
 The text is generated here and committed as a template (the kernel builder reads
 template files); ``tests/test_ftle.py`` regenerates it and fails if the file
