@@ -133,7 +133,8 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
         and ``reason`` starting "not converged".
     method : {"eigen", "propagator", "march"}
     check_resolution : "auto", (L, N) or None
-        Second resolution of the error estimate (``"auto"``: about ``3/4`` of ``(L, N)``).
+        Second resolution of the error estimate (``"auto"``: about ``3/4`` of ``(L, N)``), solved
+        for the order ``m`` of the reported mode when the flow is axisymmetric.
     tolerance : float
         ``converged`` needs the two growth rates within this (absolute, inverse
         diffusion times; the dipole's free decay rate is ``pi^2``).
@@ -186,7 +187,9 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
                 check_ball_resolution(check_resolution, "check_resolution")
             if tuple(check_res) == tuple(main_res):
                 check_res = (main_res[0] + 4, main_res[1] + 4)
-            other = solve(flow, rm, check_res, method, m, facts, opts)
+            # the check estimates the error of the reported mode: the same order m, not a new scan
+            same = main.get("m") if main.get("m") is not None else m
+            other = solve(flow, rm, check_res, method, same, facts, opts)
     lam = main["eigenvalue"]
     check, converged, error, reason = {}, None, float("nan"), ""
     if other is not None:
