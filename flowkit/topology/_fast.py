@@ -147,6 +147,46 @@ def _correction(P, i, Q, j, dx, dy, dz, r2):
     return om - mid, segment_distance(P[i], P[i1], Q[j], Q[j1])
 
 
+@njit(cache=True)
+def _near_row(P, MP, i, Q, MQ, C, ci, span, skey, order, cut2, same):
+    """Near-pair correction of segment i of P against Q, from the 27 cells around cell row ``ci``.
+
+    ``same``: Q is P, each unordered non-adjacent pair is taken from its lower index;
+    otherwise the cell list holds Q's midpoints then P's, and P's own are skipped.
+    Returns (sum, closest exact segment distance, its segment of Q, near-pair count).
+    """
+    m = Q.shape[0]
+    i1 = i + 1 if i + 1 < m else 0
+    acc = 0.0
+    best = math.inf
+    bj = -1
+    cnt = 0
+    total = skey.shape[0]
+    for ox in range(-1, 2):
+        for oy in range(-1, 2):
+            for oz in range(-1, 2):
+                k = ((C[ci, 0] + ox) * span + C[ci, 1] + oy) * span + C[ci, 2] + oz
+                a = np.searchsorted(skey, k)
+                while a < total and skey[a] == k:
+                    j = order[a]
+                    a += 1
+                    if j >= m or (same and (j <= i or j == i1 or (j + 1) % m == i)):
+                        continue
+                    dx = MP[i, 0] - MQ[j, 0]
+                    dy = MP[i, 1] - MQ[j, 1]
+                    dz = MP[i, 2] - MQ[j, 2]
+                    r2 = dx * dx + dy * dy + dz * dz
+                    if r2 >= cut2:
+                        continue
+                    c, d = _correction(P, i, Q, j, dx, dy, dz, r2)
+                    acc += c
+                    cnt += 1
+                    if d < best:
+                        best = d
+                        bj = j
+    return acc, best, bj, cnt
+
+
 @njit(cache=True, parallel=True)
 def near_rows(P, M, cut, rows, dmin, jmin, counts):
     """Exact solid angle minus the rule's value for near pairs (midpoint distance < cut), per row.
@@ -156,41 +196,9 @@ def near_rows(P, M, cut, rows, dmin, jmin, counts):
     is taken from its lower index. Also records each row's closest near segment
     (exact segment distance) and how many near pairs it has.
     """
-    n = P.shape[0]
-    cut2 = cut * cut
     C, span, skey, order = _cells(M, cut)
-    for i in prange(n):
-        i1 = i + 1 if i + 1 < n else 0
-        acc = 0.0
-        best = math.inf
-        bj = -1
-        cnt = 0
-        for ox in range(-1, 2):
-            for oy in range(-1, 2):
-                for oz in range(-1, 2):
-                    k = ((C[i, 0] + ox) * span + C[i, 1] + oy) * span + C[i, 2] + oz
-                    a = np.searchsorted(skey, k)
-                    while a < n and skey[a] == k:
-                        j = order[a]
-                        a += 1
-                        if j <= i or j == i1 or (j + 1) % n == i:
-                            continue
-                        dx = M[i, 0] - M[j, 0]
-                        dy = M[i, 1] - M[j, 1]
-                        dz = M[i, 2] - M[j, 2]
-                        r2 = dx * dx + dy * dy + dz * dz
-                        if r2 >= cut2:
-                            continue
-                        c, d = _correction(P, i, P, j, dx, dy, dz, r2)
-                        acc += c
-                        cnt += 1
-                        if d < best:
-                            best = d
-                            bj = j
-        rows[i] = acc
-        dmin[i] = best
-        jmin[i] = bj
-        counts[i] = cnt
+    for i in prange(P.shape[0]):
+        rows[i], dmin[i], jmin[i], counts[i] = _near_row(P, M, i, P, M, C, i, span, skey, order, cut * cut, True)
 
 
 @njit(cache=True, fastmath=True, error_model="numpy", parallel=True)
@@ -209,42 +217,11 @@ def midpoint_rows_two(mx, my, mz, sx, sy, sz, qx, qy, qz, tx, ty, tz, keep2, row
 def near_rows_two(P, MP, Q, MQ, cut, rows, dmin, jmin, counts):
     """Exact solid angle minus the rule's value for pairs of P and Q segments with midpoints closer than cut.
 
-    The cell list holds Q's midpoints; every segment of P looks in its 27 cells.
-    Also records each row's closest near segment of Q (exact segment distance).
+    The cell list holds Q's midpoints (then P's, for one grid origin); every segment
+    of P looks in its 27 cells. Also records each row's closest near segment of Q.
     """
-    n, m = P.shape[0], Q.shape[0]
-    cut2 = cut * cut
-    both = np.concatenate((MQ, MP))  # one grid origin for both curves
-    C, span, skey, order = _cells(both, cut)
-    for i in prange(n):
-        acc = 0.0
-        best = math.inf
-        bj = -1
-        cnt = 0
-        ci = m + i
-        for ox in range(-1, 2):
-            for oy in range(-1, 2):
-                for oz in range(-1, 2):
-                    k = ((C[ci, 0] + ox) * span + C[ci, 1] + oy) * span + C[ci, 2] + oz
-                    a = np.searchsorted(skey, k)
-                    while a < n + m and skey[a] == k:
-                        j = order[a]
-                        a += 1
-                        if j >= m:  # a midpoint of P itself
-                            continue
-                        dx = MP[i, 0] - MQ[j, 0]
-                        dy = MP[i, 1] - MQ[j, 1]
-                        dz = MP[i, 2] - MQ[j, 2]
-                        r2 = dx * dx + dy * dy + dz * dz
-                        if r2 >= cut2:
-                            continue
-                        c, d = _correction(P, i, Q, j, dx, dy, dz, r2)
-                        acc += c
-                        cnt += 1
-                        if d < best:
-                            best = d
-                            bj = j
-        rows[i] = acc
-        dmin[i] = best
-        jmin[i] = bj
-        counts[i] = cnt
+    m = Q.shape[0]
+    C, span, skey, order = _cells(np.concatenate((MQ, MP)), cut)
+    for i in prange(P.shape[0]):
+        rows[i], dmin[i], jmin[i], counts[i] = _near_row(P, MP, i, Q, MQ, C, m + i, span, skey, order, cut * cut,
+                                                         False)
