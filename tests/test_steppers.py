@@ -8,7 +8,7 @@ import flowkit
 from flowkit.errors import FlowkitError
 from flowkit.integrate.batch import IntegratorSettings, integrate_states
 from flowkit.integrate.outcomes import Outcome
-from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5, W_ROWS, W_YTMP, work_array
+from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5, work_array
 
 
 def test_dop853_tableau_order_conditions():
@@ -94,24 +94,6 @@ def test_unrolled_step_is_bitwise_the_generic_formula(n):
         e5 += (sum_in_order(DOP_E5, R[:13, i]) / sc) ** 2
         e3 += (sum_in_order(DOP_E3, R[:13, i]) / sc) ** 2
     assert err == abs(h) * e5 / np.sqrt((e5 + 0.01 * e3) * n)
-
-
-def test_unrolled_dense_output_is_bitwise_the_generic_loops():
-    # dop853_dense_prepare_3 (generated straight-line code, used by the section kernels) must fill
-    # the dense-output rows with exactly the numbers of the generic loops of dop853_dense_prepare.
-    flow = flowkit.flow("stf", rotation=0.37)
-    k, p = flow.kernels, flow.params
-    rows = []
-    for prepare in (k.dop853_dense_prepare, k.dop853_dense_prepare_3):
-        y = np.array([0.31, -0.22, 0.45])
-        W = work_array(3)
-        k.rhs(0.0, y, p, W[0])
-        status, h, _ = k.dop853_advance(0.0, y, 0.05, p, 1e-9, 1e-12, np.inf, W)
-        assert status == 0
-        prepare(0.0, h, y, p, W)
-        rows.append(W.copy())
-    keep = np.arange(W_ROWS) != W_YTMP  # every row but the generic loop's scratch (stage argument)
-    np.testing.assert_array_equal(rows[0][keep], rows[1][keep])
 
 
 def sum_in_order(coeffs, values) -> float:

@@ -49,7 +49,7 @@ from flowkit.kernels.sections_plane import (  # flowkit:stub
     SEC_SAMPLES, sec_dense_roots, sec_outside, sec_end_speed, sec_may_cross, sec_store,  # flowkit:stub
 )  # flowkit:stub
 from flowkit.kernels.steppers import (  # flowkit:stub
-    dop853_dense_eval, dop853_initial_step, rhs,  # flowkit:stub
+    dop853_dense_eval, dop853_dense_prepare, dop853_initial_step, rhs,  # flowkit:stub
 )  # flowkit:stub
 
 
@@ -95,7 +95,7 @@ def sec_orbit_dop853(y, t0, t_lim, p, rtol, atol, hmax, max_steps, bounded, plan
                 if ts > t_new:
                     break
                 if not prepared:
-                    dop853_dense_prepare_3(t, hused, y, p, W)  # noqa: F821 (generated)
+                    dop853_dense_prepare(t, hused, y, p, W)
                     prepared = True
                 if ts == t_new:
                     state[0] = y[0]
@@ -112,7 +112,7 @@ def sec_orbit_dop853(y, t0, t_lim, p, rtol, atol, hmax, max_steps, bounded, plan
             m0 = hused * (nx * W[0, 0] + ny * W[0, 1] + nz * W[0, 2])
             m1 = hused * (nx * W[12, 0] + ny * W[12, 1] + nz * W[12, 2])
             if sec_may_cross(S_old, S_new, lam, 1.5 * abs(hused) * speed, m0, m1):
-                dop853_dense_prepare_3(t, hused, y, p, W)  # noqa: F821 (generated)
+                dop853_dense_prepare(t, hused, y, p, W)
                 nr = sec_dense_roots(W, plane, S_old, S_new, th, val, rth, rdir, scratch[6])
                 for r in range(nr):
                     if steps == 1 and rth[r] == 0.0:
