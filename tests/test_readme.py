@@ -151,5 +151,11 @@ def test_python_reports_compile_seconds_apart_from_integration():
     f = flowkit.custom_flow(["-y + c*z", "x", "-c*x"], params={"c": 0.25}, domain="ball", name="readme-rotor")
     first = flowkit.poincare_section(f, [[0.3, 0.0, 0.1]], crossings=5)
     again = flowkit.poincare_section(f, [[0.3, 0.0, 0.1]], crossings=5)
-    # the first call of a new family compiles (or loads from disk); the second finds it compiled
-    assert first.provenance["compile_seconds"] > 0 and again.provenance["compile_seconds"] == 0.0
+    # the first call of a new family compiles its own kernel (or loads it from disk), or runs on the
+    # generic kernel shared by every flow while its own compiles in the background; the second call
+    # finds a compiled kernel either way
+    if first.provenance["kernel"] == "specialized":
+        assert first.provenance["compile_seconds"] > 0
+    else:
+        assert first.provenance["kernel"] == "generic"
+    assert again.provenance["compile_seconds"] == 0.0
