@@ -30,9 +30,10 @@ import math
 
 import numpy as np
 
-from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5, W_ROWS, W_YNEW, W_YOLD
+from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, W_ROWS, W_YNEW, W_YOLD
 from flowkit.kernels._stub import CACHE, gradient, njit, prange, velocity  # flowkit:stub
 from flowkit.kernels.stiffness import dop853_stiff_test  # flowkit:stub
+from flowkit.kernels.steppers import dop853_error_norm  # flowkit:stub
 
 try:
     velocity_gradient  # noqa: B018 - printed by flows/codegen.py for symbolic families
@@ -85,29 +86,6 @@ def _ftle_rate(t, y, p, W, s, planar):
 
 
 @njit(cache=CACHE)
-def _ftle_norm(y, W, rtol, atol, h, nerr):
-    """DOP853's error measure over the first ``nerr`` columns (all, or the position only)."""
-    n = y.shape[0]
-    e5 = 0.0
-    e3 = 0.0
-    for i in range(n if nerr == n else 3):
-        ynew = W[W_YNEW, i]
-        sc = atol + rtol * max(abs(y[i]), abs(ynew))
-        b5 = 0.0
-        b3 = 0.0
-        for j in range(13):
-            b5 += DOP_E5[j] * W[j, i]
-            b3 += DOP_E3[j] * W[j, i]
-        e5 += (b5 / sc) ** 2
-        e3 += (b3 / sc) ** 2
-    if not (math.isfinite(e5) and math.isfinite(e3)):
-        return np.nan
-    if e5 == 0.0 and e3 == 0.0:
-        return 0.0
-    return abs(h) * e5 / math.sqrt((e5 + 0.01 * e3) * nerr)
-
-
-@njit(cache=CACHE)
 def _ftle_try2(t, y, h, p, rtol, atol, W, nerr):
     """One DOP853 attempt of the planar state (W[0] = f(t, y) set); returns the error measure."""
     y0, y1, y2, y3, y4, y6, y7 = y[0], y[1], y[2], y[3], y[4], y[6], y[7]
@@ -130,7 +108,7 @@ def _ftle_try2(t, y, h, p, rtol, atol, W, nerr):
         W[W_YNEW, i] = y[i] + h * acc
     _vg_rate2(t + h, W[W_YNEW, 0], W[W_YNEW, 1], W[W_YNEW, 2], W[W_YNEW, 3], W[W_YNEW, 4], W[W_YNEW, 6],
               W[W_YNEW, 7], p, W, 12)
-    return _ftle_norm(y, W, rtol, atol, h, nerr)
+    return dop853_error_norm(y, W, rtol, atol, h, nerr)
 
 
 @njit(cache=CACHE, fastmath={"contract"})
@@ -161,7 +139,7 @@ def _ftle_try3(t, y, h, p, rtol, atol, W, nerr):
             acc += DOP_B[j] * W[j, i]
         W[W_YNEW, i] = y[i] + h * acc
     _ftle_rate(t + h, W[W_YNEW], p, W, 12, False)
-    return _ftle_norm(y, W, rtol, atol, h, nerr)
+    return dop853_error_norm(y, W, rtol, atol, h, nerr)
 
 
 @njit(cache=CACHE)

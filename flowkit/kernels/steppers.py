@@ -77,6 +77,30 @@ def dop853_stages(t, y, h, p, W, first, last):
 
 
 @njit(cache=CACHE)
+def dop853_error_norm(y, W, rtol, atol, h, nerr):
+    """DOP853's scaled error norm of the attempt in ``W`` over all columns (``nerr`` = n) or the
+    position only (``nerr`` = 3); NaN if anything is non-finite."""
+    n = y.shape[0]
+    e5 = 0.0
+    e3 = 0.0
+    for i in range(n if nerr == n else 3):
+        ynew = W[W_YNEW, i]
+        sc = atol + rtol * max(abs(y[i]), abs(ynew))
+        b5 = 0.0
+        b3 = 0.0
+        for j in range(13):
+            b5 += DOP_E5[j] * W[j, i]
+            b3 += DOP_E3[j] * W[j, i]
+        e5 += (b5 / sc) ** 2
+        e3 += (b3 / sc) ** 2
+    if not (math.isfinite(e5) and math.isfinite(e3)):
+        return np.nan
+    if e5 == 0.0 and e3 == 0.0:
+        return 0.0
+    return abs(h) * e5 / math.sqrt((e5 + 0.01 * e3) * nerr)
+
+
+@njit(cache=CACHE)
 def dop853_try(t, y, h, p, rtol, atol, W):
     """Attempt one DOP853 step from (t, y) with W[0] = f(t, y) already set.
 
@@ -100,22 +124,7 @@ def dop853_try(t, y, h, p, rtol, atol, W):
             acc += DOP_B[j] * K[j, i]
         ynew[i] = y[i] + h * acc
     rhs(t + h, ynew, p, K[12])
-    e5 = 0.0
-    e3 = 0.0
-    for i in range(n):
-        sc = atol + rtol * max(abs(y[i]), abs(ynew[i]))
-        a5 = 0.0
-        a3 = 0.0
-        for j in range(13):
-            a5 += DOP_E5[j] * K[j, i]
-            a3 += DOP_E3[j] * K[j, i]
-        e5 += (a5 / sc) ** 2
-        e3 += (a3 / sc) ** 2
-    if not (math.isfinite(e5) and math.isfinite(e3)):
-        return np.nan
-    if e5 == 0.0 and e3 == 0.0:
-        return 0.0
-    return abs(h) * e5 / math.sqrt((e5 + 0.01 * e3) * n)
+    return dop853_error_norm(y, W, rtol, atol, h, n)
 
 
 @njit(cache=CACHE)
