@@ -232,3 +232,18 @@ def test_growth_plot_draws_curves_bands_and_fitted_slopes():
     with pytest.raises(FlowkitError, match="no moment of order 7"):
         plot_growth(ax, res, p=7)
     plt.close(fig)
+
+
+def test_log_sum_exp_matches_scipy_including_infinite_and_nan_rows():
+    # Reference library: scipy.special.logsumexp.
+    from flowkit.fields.rates import log_sum_exp
+
+    rng = np.random.default_rng(3)
+    a = rng.normal(scale=400.0, size=(7, 5, 3))   # exp overflows without the shift
+    a[:, 0, 0] = -np.inf                          # an empty group
+    a[2, 1, 1] = np.nan
+    a[:, 2, 2] = 1e308
+    ours = log_sum_exp(a, axis=0)
+    ref = logsumexp(a, axis=0)
+    assert np.array_equal(np.isnan(ours), np.isnan(ref))
+    np.testing.assert_allclose(ours[~np.isnan(ref)], ref[~np.isnan(ref)], rtol=1e-14, atol=0)

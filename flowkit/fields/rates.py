@@ -109,3 +109,17 @@ def mean_rate(slopes: np.ndarray, win: tuple, what: str) -> RateEstimate:
                         f"mean over particles of the least-squares slope of {what}; standard error over particles")
 
 
+
+
+def log_sum_exp(a: np.ndarray, axis: int = 0) -> np.ndarray:
+    """``ln sum exp(a)`` along ``axis`` without overflow (all ``-inf`` gives ``-inf``, a NaN gives NaN).
+
+    The same sum as ``scipy.special.logsumexp``, written in plain numpy: scipy's
+    array-API dispatch costs ~0.3 ms a call, which made this serial step a quarter
+    of a two-thread field-vector run.
+    """
+    a = np.asarray(a, dtype=float)
+    m = np.max(a, axis=axis, keepdims=True)
+    m = np.where(np.isfinite(m), m, 0.0)
+    with np.errstate(divide="ignore"):
+        return np.log(np.sum(np.exp(a - m), axis=axis)) + np.squeeze(m, axis=axis)

@@ -58,14 +58,13 @@ from dataclasses import dataclass
 from typing import Iterable, Sequence
 
 import numpy as np
-from scipy.special import logsumexp
 
 from flowkit.errors import FlowkitError
 from flowkit.fields.particles import (
     advance_points, check_duration, check_points, check_system, check_transient, checkpoints, default_seeds,
     provenance_of, random_directions, run_frames, stretch_settings, units, _planar,
 )
-from flowkit.fields.rates import RateEstimate, jackknife_stderr, mean_rate, ols_weights, window_mask
+from flowkit.fields.rates import RateEstimate, jackknife_stderr, log_sum_exp, mean_rate, ols_weights, window_mask
 from flowkit.fields.results import StretchResult
 from flowkit.flows.maps import is_map
 from flowkit.integrate.batch import IntegratorSettings
@@ -299,7 +298,7 @@ def _run_chunk(system, X, B, idx, marks, transient, settings, threads, weights, 
     count = np.zeros(G, dtype=np.int64)
     for g in np.unique(gid[ok]):
         sub = logB[ok & (gid == g)]
-        lse[g] = logsumexp(sub[:, :, None] * Q[None, None, :], axis=0)
+        lse[g] = log_sum_exp(sub[:, :, None] * Q[None, None, :], axis=0)
         count[g] = len(sub)
     good = logB[ok]
     rates = np.full(nc, np.nan)
@@ -353,14 +352,14 @@ def _assemble(chunks, times, orders, Q, window, mask, G, N, X0, B0, unit, quanti
         raise FlowkitError("no particle finished the run (see the outcomes); nothing to average. "
                            f"Outcomes: {outcome_counts(outcome[outcome >= 0])}")
     qi = {q: i for i, q in enumerate(Q)}
-    tot = logsumexp(lse, axis=0)                        # (K1, Q)
+    tot = log_sum_exp(lse, axis=0)                        # (K1, Q)
     logm_all = tot - math.log(n)
     # leave-one-group-out moments (groups with no particle are skipped)
     live = np.flatnonzero(count > 0)
     loo = np.empty((len(live), K1, len(Q)))
     for j, g in enumerate(live):
         others = np.delete(lse, g, axis=0)
-        loo[j] = logsumexp(others, axis=0) - math.log(max(n - count[g], 1))
+        loo[j] = log_sum_exp(others, axis=0) - math.log(max(n - count[g], 1))
     if len(live) < 2:
         loo = loo[:0]
     wts = ols_weights(times[mask])
