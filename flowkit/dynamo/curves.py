@@ -169,12 +169,17 @@ def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution=No
         resolution = (16, 16) if ball else 32
     rms = sorted(_rm_values(rm_list))
     t0 = time.perf_counter()
+    solver = dict(settings)
+    if ball and method == "eigen":  # each solve starts from the last eigenpair (flowkit.dynamo.sphere.warm)
+        from flowkit.dynamo.sphere.warm import WarmStart
+
+        solver.setdefault("warm_start", WarmStart())
     evaluations: dict[float, float] = {}
     freqs: dict[float, float] = {}
 
     def sigma(rm: float) -> float:
         if rm not in evaluations:
-            r = growth_rate(flow, rm, resolution, method, check_resolution=None, keep_mode=False, **settings)
+            r = growth_rate(flow, rm, resolution, method, check_resolution=None, keep_mode=False, **solver)
             if not math.isfinite(r.growth_rate):
                 raise FlowkitError(f"no growth rate at Rm = {rm:g} ({r.diagnostics.get('message', '')}); "
                                    "raise `resolution` or change the method settings")
@@ -213,7 +218,7 @@ def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution=No
                          else check_ball_resolution(check_resolution, "check_resolution"))
         else:
             other = default_check_resolution(resolution) if check_resolution == "auto" else int(check_resolution)
-        r2 = growth_rate(flow, root, other, method, check_resolution=None, keep_mode=False, **settings)
+        r2 = growth_rate(flow, root, other, method, check_resolution=None, keep_mode=False, **solver)
         check = {"resolution": other, "growth_rate_at_root": r2.growth_rate}
         uncertainty += abs(r2.growth_rate - evaluations[root]) / abs(slope)
     return CriticalRm(
@@ -222,6 +227,7 @@ def critical_rm(flow, rm_list=(1, 2, 4, 6, 8, 10, 15, 20, 30, 50), resolution=No
         evaluations=[[r, evaluations[r], freqs[r]] for r in sorted(evaluations)],
         resolution=resolution, method=method,
         provenance={**stamp(flow, {"method": method, "resolution": resolution, "xtol": xtol,
-                                   "rm_list": rms, **settings}), "check": check},
+                                   "rm_list": rms, **{k: v for k, v in settings.items() if k != "warm_start"}}),
+                    "check": check},
         seconds=time.perf_counter() - t0,
     )

@@ -66,8 +66,11 @@ def guesses_from_coarse(op, count: int = 2) -> list[complex]:
     return out
 
 
-def arpack_near(A, solve_factory, shifts, nev, ncv, tol, maxiter):
-    """Eigenpairs of ``A`` nearest each shift (shift-invert ARPACK); all found pairs, largest real part first."""
+def arpack_near(A, solve_factory, shifts, nev, ncv, tol, maxiter, v0=None):
+    """Eigenpairs of ``A`` nearest each shift (shift-invert ARPACK); all found pairs, largest real part first.
+
+    ``v0``: ARPACK's start vector (a last eigenvector, :mod:`~.warm`); default the normalised ones vector.
+    """
     n = A.shape[0]
     nev = int(min(nev, n - 2))
     ncv = int(min(max(ncv, 2 * nev + 1), n - 1))
@@ -77,9 +80,9 @@ def arpack_near(A, solve_factory, shifts, nev, ncv, tol, maxiter):
         s = float(np.real(s)) if np.isrealobj(M) else complex(s)
         solve = solve_factory(M, s)
         opinv = LinearOperator((n, n), matvec=solve, dtype=M.dtype)
-        v0 = np.ones(n, M.dtype) / math.sqrt(n)
+        start = np.ones(n, M.dtype) / math.sqrt(n) if v0 is None else np.asarray(v0, M.dtype)
         try:
-            vals, vecs = eigs(M, k=nev, sigma=s, OPinv=opinv, ncv=ncv, tol=tol, maxiter=maxiter, v0=v0)
+            vals, vecs = eigs(M, k=nev, sigma=s, OPinv=opinv, ncv=ncv, tol=tol, maxiter=maxiter, v0=start)
         except ArpackNoConvergence as exc:
             vals, vecs = exc.eigenvalues, exc.eigenvectors
             ok, msg = False, f"ARPACK found {len(vals)} of {nev} eigenvalues near {s:.4g}"
@@ -130,11 +133,30 @@ def merge_shifts(guesses, real: bool, extra=None) -> list:
     return out or [complex(0.0, 0.0)]
 
 
+def warm_eigs(B, pair, nev, ncv, tol, maxiter):
+    """Eigenpairs of one family block near its last leading eigenvalue, started from its last vector
+    (:mod:`~.warm`): one factorisation. ``None`` when ARPACK fails (the caller falls back)."""
+    from flowkit.dynamo.sphere.warm import start_vector
+
+    lam, vec = pair
+    shifts = merge_shifts([lam], np.isrealobj(B))
+    try:
+        vals, vecs, ok, msg = arpack_near(B, lu_factory, shifts, nev, ncv, tol, maxiter,
+                                          v0=start_vector(vec, np.isrealobj(B)))
+    except (RuntimeError, ValueError, np.linalg.LinAlgError):  # singular shift, ARPACK error
+        return None
+    if not ok or vecs is None or not np.isfinite(vals[0]):
+        return None
+    return vals, vecs, True, "", shifts
+
+
 def block_eigs(B, guesses, nev, ncv, tol, maxiter, shift=None):
     """Leading eigenpairs of one family block: dense ``eig`` up to :data:`DENSE_MAX`, else shift-invert."""
     from scipy.linalg import eig
 
     n = B.shape[0]
+    if callable(guesses):
+        guesses = guesses() if n > DENSE_MAX and n >= 8 else []
     if n <= DENSE_MAX or n < 8:
         vals, vecs = eig(B.toarray() if sps.issparse(B) else B)
         order = np.argsort(-vals.real)
@@ -144,25 +166,51 @@ def block_eigs(B, guesses, nev, ncv, tol, maxiter, shift=None):
     return vals, vecs, ok, msg, shifts
 
 
-def solve_families(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None) -> dict:
-    """Leading eigenvalue of ``op`` from its real, decoupled family blocks (:mod:`~.parts`)."""
+def solve_families(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None, warm=None) -> dict:
+    """Leading eigenvalue of ``op`` from its real, decoupled family blocks (:mod:`~.parts`).
+
+    ``warm``: a :class:`~flowkit.dynamo.sphere.warm.WarmStart` carried along a run of solves.
+    """
     from flowkit.dynamo.sphere.parts import operator_parts, real_blocks
+    from flowkit.dynamo.sphere.threads import eigen_threads
+    from flowkit.dynamo.sphere.warm import WARM_DENSE_MIN
 
     parts = operator_parts(op)
     blocks, to_complex = real_blocks(op, parts)
-    if guesses is None:
-        guesses = guesses_from_coarse(op) if any(b.shape[0] > DENSE_MAX for _, b in blocks) else []
+    if guesses is None and warm is not None:
+        guesses = warm.guesses(op)  # another resolution at this Rm: its leading eigenvalues, no coarse solve
+    lazy = {}
+
+    def default_guesses():  # the coarse solve only if a block needs shifts and no warm start covered it
+        if guesses is not None:
+            return guesses
+        if "g" not in lazy:
+            lazy["g"] = guesses_from_coarse(op)
+        return lazy["g"]
+
     found, ok, msgs, shifts = [], True, [], []
-    for ix, B in blocks:
-        vals, vecs, good, msg, used = block_eigs(B, guesses, nev, ncv, tol, maxiter, shift)
-        ok, shifts = ok and good, shifts + [s for s in used if s not in shifts]
-        if msg:
-            msgs.append(msg)
-        if vecs is not None:
-            found += [(v, ix, vecs[:, k]) for k, v in enumerate(vals[:8])]
+    with eigen_threads():
+        for k, (ix, B) in enumerate(blocks):
+            pair = None if warm is None or B.shape[0] < WARM_DENSE_MIN else warm.pair(op, k, B.shape[0])
+            out = None if pair is None else warm_eigs(B, pair, nev, ncv, tol, maxiter)
+            if pair is not None:
+                warm.warm_solves += 1
+                warm.fallbacks += out is None
+            if out is None:
+                out = block_eigs(B, default_guesses, nev, ncv, tol, maxiter, shift)
+            vals, vecs, good, msg, used = out
+            if warm is not None and vecs is not None:
+                warm.remember(op, k, vals[0], vecs[:, 0])
+            ok, shifts = ok and good, shifts + [s for s in used if s not in shifts]
+            if msg:
+                msgs.append(msg)
+            if vecs is not None:
+                found += [(v, ix, vecs[:, j]) for j, v in enumerate(vals[:8])]
     if not found:
         return _pack_out(op, complex("nan"), None, False, "; ".join(msgs) or "no eigenvalue found", eigenvalues=[])
     found.sort(key=lambda item: -item[0].real)
+    if warm is not None:
+        warm.remember_leads(op, [v for v, _, _ in found])
     lam, ix, y = found[0]
     x = to_complex(ix, y)
     x /= np.linalg.norm(x)
@@ -174,15 +222,16 @@ def solve_families(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, gues
                      eigenvalues=[[float(z.real), float(z.imag)] for z, _, _ in found[:8]])
 
 
-def shift_invert(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None) -> dict:
+def shift_invert(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None, warm=None) -> dict:
     """Leading eigenvalue of one order of an axisymmetric flow (see the module docstring).
 
     The order's matrix ``D + Rm K`` (parts kept across calls), in real form when it has
     one, split into its decoupled families; blocks up to :data:`DENSE_MAX` unknowns:
     dense ``eig``; larger ones: shift-invert ARPACK around the leading eigenvalues of a
-    coarse resolution (offset by ``+0.5`` in real part), and at ``shift`` if given.
+    coarse resolution (offset by ``+0.5`` in real part), and at ``shift`` if given; from a
+    ``warm`` start (:mod:`~.warm`) around each family's last leading eigenvalue.
     """
-    return solve_families(op, nev, ncv, tol, maxiter, shift, guesses)
+    return solve_families(op, nev, ncv, tol, maxiter, shift, guesses, warm)
 
 
 def propagator(op, nev=6, ncv=24, tol=1e-8, maxiter=3000, tau=None, cfl=1.5, seed=0) -> dict:

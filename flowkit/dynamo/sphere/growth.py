@@ -73,9 +73,14 @@ def default_check(res: tuple[int, int], facts) -> tuple[int, int]:
     return max(lmin, int(round(0.75 * res[0]))), max(nmin, int(round(0.75 * res[1])))
 
 
-def solve(flow, rm, res, method, m, facts, opts) -> dict:
-    """Leading eigenvalue at one resolution: ``eigenvalue``, ``vector``, ``op``, ``m`` and solver details."""
+def solve(flow, rm, res, method, m, facts, opts, warm=None) -> dict:
+    """Leading eigenvalue at one resolution: ``eigenvalue``, ``vector``, ``op``, ``m`` and solver details.
+
+    ``warm``: a :class:`~flowkit.dynamo.sphere.warm.WarmStart` (method ``"eigen"`` only).
+    """
     lmax, n = res
+    if warm is not None and method == "eigen" and flow.steady:
+        opts = {**opts, "warm": warm}
     if facts.axisymmetric and flow.steady:
         orders = range(0, min(lmax, M_SCAN) + 1) if m is None else \
             range(0, lmax + 1) if m == "all" else [int(m)]
@@ -116,7 +121,8 @@ def _mode(out) -> tuple[np.ndarray, list]:
 
 
 def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen", check_resolution="auto",
-                     tolerance: float = 1e-2, keep_mode: bool = True, m=None, max_resolution=None, **settings):
+                     tolerance: float = 1e-2, keep_mode: bool = True, m=None, max_resolution=None,
+                     warm_start=None, **settings):
     """Growth rate and frequency of the leading mode of a ball flow (insulating exterior).
 
     Parameters
@@ -142,6 +148,10 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
         Orders of an axisymmetric flow (see the module docstring).
     max_resolution : (L, N), optional
         Cap of ``resolution="auto"`` (default ``(32, 32)``; ``(20, 20)`` when all orders couple).
+    warm_start : WarmStart, False or None
+        Eigenpairs carried from earlier solves (:mod:`~flowkit.dynamo.sphere.warm`; a critical-Rm
+        search passes one along). ``None``: a fresh one for this call, so the ``"auto"`` ladder and
+        the resolution check start from the previous resolution's eigenvalues; ``False``: off.
     **settings
         Method settings (``SHIFT_DEFAULTS``, ``PROPAGATOR_DEFAULTS``, ``MARCH_DEFAULTS``).
 
@@ -165,11 +175,16 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
     if unknown:
         raise FlowkitError(f"unknown {method} settings {unknown}; known: {', '.join(defaults)}")
     opts = {**defaults, **settings}
+    from flowkit.dynamo.sphere.warm import WarmStart
+
+    warm = WarmStart() if warm_start is None else (warm_start or None)
+    if warm is not None and not isinstance(warm, WarmStart):
+        raise FlowkitError(f"`warm_start` must be a WarmStart, None or False; got {warm_start!r}")
     ladder_run = []
     if isinstance(resolution, str) and resolution == "auto":
         runs = []
         for res in auto_ladder(facts, facts.axisymmetric and flow.steady, max_resolution, flow.name):
-            out = solve(flow, rm, res, method, m, facts, opts)
+            out = solve(flow, rm, res, method, m, facts, opts, warm)
             ladder_run.append([list(res), out["eigenvalue"].real, abs(out["eigenvalue"].imag)])
             runs.append((res, out))
             if len(runs) > 1 and abs(out["eigenvalue"].real - runs[-2][1]["eigenvalue"].real) <= tolerance \
@@ -179,7 +194,7 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
     else:
         main_res = check_ball_resolution(resolution)
         check_facts(flow, facts, *main_res)
-        main = solve(flow, rm, main_res, method, m, facts, opts)
+        main = solve(flow, rm, main_res, method, m, facts, opts, warm)
         if check_resolution is None:
             check_res, other = None, None
         else:
@@ -189,7 +204,7 @@ def ball_growth_rate(flow, rm: float, resolution=(16, 16), method: str = "eigen"
                 check_res = (main_res[0] + 4, main_res[1] + 4)
             # the check estimates the error of the reported mode: the same order m, not a new scan
             same = main.get("m") if main.get("m") is not None else m
-            other = solve(flow, rm, check_res, method, same, facts, opts)
+            other = solve(flow, rm, check_res, method, same, facts, opts, warm)
     lam = main["eigenvalue"]
     check, converged, error, reason = {}, None, float("nan"), ""
     if other is not None:

@@ -98,13 +98,14 @@ def sparse_matrix(op, part: str = "all") -> sps.csc_matrix:
     return A
 
 
-def sparse_shift_invert(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None) -> dict:
+def sparse_shift_invert(op, nev=4, ncv=20, tol=1e-10, maxiter=20000, shift=30.0, guesses=None,
+                        warm=None) -> dict:
     """Leading eigenvalue of the coupled operator: the sparse ``D + Rm K`` in cosine/sine (real) form,
     split into its decoupled families, each by shift-invert ARPACK (dense LU or SuperLU) at shifts next
-    to the leading eigenvalues of a coarse resolution, and at ``shift`` if given."""
+    to the leading eigenvalues of a coarse resolution, and at ``shift`` if given (or from a ``warm`` start)."""
     from flowkit.dynamo.sphere.eigen import solve_families
 
-    out = solve_families(op, nev, ncv, tol, maxiter, shift, guesses)
+    out = solve_families(op, nev, ncv, tol, maxiter, shift, guesses, warm)
     from flowkit.dynamo.sphere.parts import operator_parts
 
     out["nnz"] = int(operator_parts(op)["K"].nnz)
