@@ -13,9 +13,14 @@
 4. The onset of stf (all orders coupled) at rotation 0.3 and the growth rates at rotation
    0.1 (new; no published value): per resolution, secant iterations on the growth rate
    (Rm_c and the seconds per eigenvalue).
+5. Warm starts (flowkit.dynamo.sphere.warm) against none, in the same run, interleaved: the
+   critical Rm of t2s2 and t1s1 (every digit of both compared) and the convergence table
+   carried across resolutions; and one BLAS thread against two in the eigen work
+   (flowkit.dynamo.sphere.threads): stf and t2s2 eigenvalues, wall and CPU seconds.
 
-Standalone: ``python benchmarks/bench_dynamo_sphere.py [--quick] [--stf-only]``; writes
-benchmarks/results/dynamo_sphere.json (``dynamo_sphere_stf.json`` for ``--stf-only``).
+Standalone: ``python benchmarks/bench_dynamo_sphere.py [--quick] [--stf-only | --warm-threads]``;
+writes benchmarks/results/dynamo_sphere.json (``dynamo_sphere_stf.json`` for ``--stf-only``,
+``dynamo_sphere_warm_threads.json`` for ``--warm-threads``).
 The machine may be shared (load recorded with every part).
 """
 
@@ -169,9 +174,77 @@ def stf_study(quick: bool) -> dict:
     return out
 
 
-def main(quick: bool, stf_only: bool) -> None:
+def clocked(fn) -> tuple:
+    """``(result, wall seconds, CPU seconds of this process, load)`` of one call."""
+    w0, c0 = time.perf_counter(), time.process_time()
+    out = fn()
+    return out, time.perf_counter() - w0, time.process_time() - c0, load()
+
+
+def warm_vs_cold(quick: bool, repeat: int = 2) -> dict:
+    """Critical Rm with and without warm starts (parts built once beforehand: both pay only the solves),
+    interleaved, best of ``repeat``; every digit of Rm_c, its uncertainty and frequency kept."""
+    res = (16, 16) if quick else (24, 24)
+    out = {}
+    for name, rms in (("t2s2", [50.0, 58.0]), ("t1s1", [145.0, 165.0])):
+        flow = benchmark_flow(name)
+        critical_rm(flow, rms, resolution=res, progress=False, xtol=1e-4, m=1)  # build the parts
+        runs = {"cold": [], "warm": []}
+        for _ in range(repeat):
+            for label, kw in (("cold", {"warm_start": False}), ("warm", {})):
+                c, wall, cpu, ld = clocked(lambda: critical_rm(flow, rms, resolution=res, progress=False, xtol=1e-4,
+                                                               m=1, **kw))
+                runs[label].append({"wall_s": wall, "cpu_s": cpu, "load": ld, "rm_critical": repr(c.rm_critical),
+                                    "uncertainty": repr(c.uncertainty), "frequency": repr(c.frequency),
+                                    "evaluations": len(c.evaluations)})
+        best = {k: min(r["cpu_s"] for r in v) for k, v in runs.items()}
+        out[name] = {"resolution": list(res), "runs": runs, "cpu_ratio_warm_to_cold": best["warm"] / best["cold"]}
+        print(name, out[name], flush=True)
+    # the convergence table carried across resolutions (one WarmStart) against fresh solves
+    from flowkit.dynamo.sphere.warm import WarmStart
+
+    ladder = [(12, 12), (16, 16), (20, 20)] if quick else [(12, 12), (16, 16), (20, 20), (24, 24)]
+    t1s1 = benchmark_flow("t1s1")
+    table(t1s1, 155.0, ladder, m=1)  # parts built
+    for label, kw in (("cold", {"warm_start": False}), ("warm", {"warm_start": WarmStart()})):
+        rows, wall, cpu, ld = clocked(lambda: table(t1s1, 155.0, ladder, m=1, **kw))
+        out[f"t1s1_table_{label}"] = {"wall_s": wall, "cpu_s": cpu, "load": ld,
+                                      "growth_rates": [repr(r["growth_rate"]) for r in rows]}
+    return out
+
+
+def blas_threads(quick: bool, repeat: int = 3) -> dict:
+    """One eigenvalue with one BLAS thread against two in the eigen work, interleaved, best of ``repeat``
+    (parts built beforehand; no warm start, so each solve pays its factorisations)."""
+    from flowkit.dynamo.sphere import threads
+
+    cases = [("stf_0.3", flowkit.flow("stf", rotation=0.3), 140.0, (8, 8) if quick else (10, 10), None),
+             ("t2s2_m1", benchmark_flow("t2s2"), 54.0, (16, 16) if quick else (24, 24), 1)]
+    out, saved = {}, threads.BLAS_THREADS
+    try:
+        for name, flow, rm, res, m in cases:
+            timed(flow, rm, res, m=m, warm_start=False)  # build the parts
+            runs = {1: [], 2: []}
+            for _ in range(repeat):
+                for count in (1, 2):
+                    threads.BLAS_THREADS = count
+                    r, wall, cpu, ld = clocked(lambda: timed(flow, rm, res, m=m, warm_start=False))
+                    runs[count].append({"wall_s": wall, "cpu_s": cpu, "load": ld, "growth_rate": repr(r["growth_rate"])})
+            best = {k: min(x["wall_s"] for x in v) for k, v in runs.items()}
+            out[name] = {"resolution": list(res), "runs": {str(k): v for k, v in runs.items()},
+                         "best_wall_s": {str(k): v for k, v in best.items()}, "wall_ratio_1_to_2": best[1] / best[2]}
+            print(name, out[name], flush=True)
+    finally:
+        threads.BLAS_THREADS = saved
+    return out
+
+
+def main(quick: bool, stf_only: bool, warm_threads: bool = False) -> None:
     if stf_only:
         save("dynamo_sphere_stf", stf_study(quick))
+        return
+    if warm_threads:
+        save("dynamo_sphere_warm_threads", {"blas_threads": blas_threads(quick), "warm_starts": warm_vs_cold(quick)})
         return
     out = {"operator": operator_vs_transforms(12 if quick else 16, 12 if quick else 16)}
     t2s2, t1s1 = benchmark_flow("t2s2"), benchmark_flow("t1s1")
@@ -203,8 +276,10 @@ def main(quick: bool, stf_only: bool) -> None:
     store._STORE.clear()
     out["stf_eigenvalue"] = {"first": timed(stf, 140.0, res), "second_rm": timed(stf, 141.0, res)}
     print(out["stf_eigenvalue"], flush=True)
+    out["blas_threads"] = blas_threads(quick)
+    out["warm_starts"] = warm_vs_cold(quick)
     save("dynamo_sphere", out)
 
 
 if __name__ == "__main__":
-    main("--quick" in sys.argv[1:], "--stf-only" in sys.argv[1:])
+    main("--quick" in sys.argv[1:], "--stf-only" in sys.argv[1:], "--warm-threads" in sys.argv[1:])
