@@ -18,6 +18,16 @@ from flowkit.dynamo.sphere.sparse import sparse_shift_invert
 from flowkit.errors import FlowkitError
 
 
+@pytest.fixture(autouse=True, scope="module")
+def one_blas_thread():
+    # the reference eigvals calls too: OpenBLAS's second thread spins on the shared 2-core machine
+    # (a 264 x 264 eigvals took 3 s with two threads at load 3.7; benchmarks/bench_dynamo_sphere.py)
+    from threadpoolctl import threadpool_limits
+
+    with threadpool_limits(limits=1, user_api="blas"):
+        yield
+
+
 def first_zero(l: int) -> float:
     """First positive zero of the spherical Bessel function j_l (scipy), bracketed on a fine scan."""
     x = np.linspace(0.5, 12, 2000)
@@ -230,3 +240,75 @@ def test_dynamo_explorer_shows_a_ball_mode_in_the_meridional_disk(t2s2):
     assert ex.result.domain == "ball" and ex.result.growth_rate == pytest.approx(api.growth_rate, rel=1e-10)
     assert tuple(ex.image.get_extent()) == (-1, 1, -1, 1) and ex.image.get_array().max() > 0
     ex.close()
+
+
+def test_warm_start_finds_the_leading_eigenvalue_at_the_next_rm(t2s2, monkeypatch):
+    # a warm solve (shift-invert around the last leading eigenvalue, started from its eigenvector)
+    # gives LAPACK's leading eigenvalue of the operator at the new Rm (scipy.linalg.eigvals)
+    from scipy.linalg import eigvals
+
+    from flowkit.dynamo.sphere import eigen
+    from flowkit.dynamo.sphere.parts import operator_parts
+    from flowkit.dynamo.sphere.warm import WarmStart
+
+    def leading(rm):
+        parts = operator_parts(BallOperator(t2s2, rm, 12, 12, m=1))
+        return eigvals(parts["D"].toarray() + rm * parts["K"]).real.max()
+
+    warm = WarmStart()
+    kw = dict(m=1, check_resolution=None, warm_start=warm, keep_mode=False)
+    growth_rate(t2s2, 54.0, (12, 12), **kw)
+    res = growth_rate(t2s2, 56.0, (12, 12), **kw)
+    assert warm.warm_solves == 1 and warm.fallbacks == 0
+    assert res.growth_rate == pytest.approx(leading(56.0), abs=1e-8)
+    # a warm solve that fails (ARPACK reports no convergence) falls back to the ordinary path
+    monkeypatch.setattr(eigen, "arpack_near", lambda *a, **k: (np.array([complex("nan")]), None, False, "failed"))
+    again = growth_rate(t2s2, 57.0, (12, 12), **kw)
+    assert warm.fallbacks == 1 and again.growth_rate == pytest.approx(leading(57.0), abs=1e-8)
+    # far in Rm the last pair is not used: the ordinary path again
+    growth_rate(t2s2, 80.0, (12, 12), **kw)
+    assert warm.warm_solves == 2
+
+
+def test_blas_threads_are_limited_only_inside_the_eigen_work():
+    # threadpoolctl's own report of the BLAS libraries numpy and scipy loaded: one thread inside the
+    # block, the count before it afterwards; a block on a worker thread (lab explorers) changes nothing,
+    # also while it overlaps one on the main thread
+    from threadpoolctl import threadpool_info, threadpool_limits
+
+    from flowkit.dynamo.sphere.threads import eigen_threads
+
+    def counts():
+        return [i["num_threads"] for i in threadpool_info() if i["user_api"] == "blas"]
+
+    with threadpool_limits(limits=2, user_api="blas"):  # this module's tests run with one thread
+        check_blas_limit(counts, eigen_threads)
+
+
+def check_blas_limit(counts, eigen_threads):
+    import threading
+
+    before = counts()
+    assert set(before) == {2}
+    with eigen_threads():
+        with eigen_threads():
+            inside = counts()
+        still = counts()
+    assert set(inside) == {1} and set(still) == {1} and counts() == before
+    seen, entered, leave = [], threading.Event(), threading.Event()
+
+    def other():
+        with eigen_threads():
+            seen.append(counts())
+            entered.set()
+            leave.wait(10)
+
+    worker = threading.Thread(target=other)
+    worker.start()
+    entered.wait(10)
+    assert seen == [before]
+    with eigen_threads():
+        assert set(counts()) == {1}
+        leave.set()
+        worker.join(10)
+    assert counts() == before

@@ -4,9 +4,11 @@ On a shared 2-core machine OpenBLAS's second thread spins while it waits for wor
 the eigen solves run faster on one thread (benchmarks/bench_dynamo_sphere.py measures
 both in the same run). :func:`eigen_threads` limits the BLAS libraries that numpy and
 scipy loaded (through ``threadpoolctl``) while the block is running and restores the
-previous count when the last block leaves: the limit is reference-counted under a lock,
-because the lab's explorers solve in worker threads, so overlapping blocks cannot leave
-the process limited. Nothing is changed outside these blocks.
+previous count when the outermost block leaves. OpenBLAS ignores a thread count set from
+any thread but the main one (measured: a worker's set, and so its restore, has no effect),
+so only blocks on the main thread limit; a block on a worker thread (the lab's explorers
+solve in threads) runs with whatever count is in force and changes nothing. Nothing is
+changed outside these blocks.
 """
 
 from __future__ import annotations
@@ -39,7 +41,7 @@ def eigen_threads():
     """Run the block with BLAS limited to :data:`BLAS_THREADS` threads (module docstring)."""
     limit = _threads()
     entered = False
-    if limit is not None:
+    if limit is not None and threading.current_thread() is threading.main_thread():
         with _LOCK:
             if _STATE["depth"] == 0:
                 try:
