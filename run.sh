@@ -68,7 +68,9 @@ case "$task" in
     exec python -m flowkit.headless "$@"
     ;;
   tests)
-    exec python -m pytest -q "$@"
+    # one pytest worker per core (pytest-xdist); work stealing keeps a file's tests together
+    # where it can, so module fixtures and compiled kernels are reused. `-n 0`: one process.
+    exec python -m pytest -q -n auto --dist worksteal "$@"
     ;;
   bench)
     exec python benchmarks/run_all.py "$@"
