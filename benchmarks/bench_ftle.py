@@ -209,13 +209,65 @@ def _stats(d):
     return {"max": float(d.max()), "p99": float(np.percentile(d, 99)), "median": float(np.median(d))}
 
 
+def step_costs(flow, field, settings, repeat=2):
+    """Accepted steps per orbit and CPU nanoseconds per accepted step of each method, one thread.
+
+    The kernels ftle_field runs, called on the points of ``field``: the flow map's positions
+    (generic batch driver, 3 components; the normal offsets of 3-D grids left out) and the FTLE
+    kernel with either error norm (best of ``repeat`` interleaved runs). With the position-only
+    norm each orbit should take its streamline's steps, those of the flow map.
+    """
+    import numba
+
+    from flowkit.integrate.batch import thread_limit
+
+    planar = flow.kind == "planar"
+    pts = field.points.reshape(-1, 3)[np.isfinite(field.values).ravel()]
+    k = 2 if planar else 3
+
+    def run(key):
+        if key == "flowmap":
+            Y = pts.copy()  # integrated in place
+        else:
+            Y = np.zeros((len(pts), 3 + 3 * k))
+            Y[:, :3] = pts
+            for c in range(k):
+                Y[:, 3 + 4 * c] = 1.0
+        out = [np.zeros(len(Y), np.int8), np.zeros(len(Y)), np.zeros(len(Y), np.int64)]
+        c0 = time.process_time()
+        with thread_limit(1), numba.parallel_chunksize(1):
+            if key == "flowmap":
+                flow.kernels.batch_solve(Y, 0.0, field.time, flow.params, 0, settings.rtol, settings.atol,
+                                         float(settings.max_step), int(settings.max_steps), 1,
+                                         flow.domain == "ball", *out)
+            else:
+                flow.kernels.ftle_dop853_batch(Y, 0.0, field.time, flow.params, settings.rtol, settings.atol,
+                                               float(settings.max_step), int(settings.max_steps),
+                                               flow.domain == "ball", planar, key == "variational_position_error",
+                                               *out)
+        return time.process_time() - c0, out[2]
+
+    cpu, steps = {}, {}
+    for _ in range(repeat):
+        for key in ("flowmap", "variational_position_error", "variational"):
+            c, st = run(key)
+            cpu[key] = min(cpu.get(key, math.inf), c)
+            steps[key] = st
+    out = {key: {"steps_per_orbit": float(steps[key].mean()), "cpu_ns_per_step": 1e9 * cpu[key] / steps[key].sum()}
+           for key in cpu}
+    out["orbits_position_steps_differ_from_flowmap"] = int(np.count_nonzero(
+        steps["variational_position_error"] != steps["flowmap"]))
+    return out
+
+
 def variational_vs_flowmap_case(name, flow, plane, res, T, rtol, repeat=3):
     """ftle_field (variational, both error norms) against the flow map + centred differences, equal tolerance.
 
     One thread, the best of ``repeat`` interleaved runs. Also: the generic-driver path
     ftle_field used before (same points, same tolerance), and how far the flow-map field
     is from the variational one (ridge smearing), overall and on the ridges (grid points
-    where the variational FTLE is in its top 5 %).
+    where the variational FTLE is in its top 5 %), and the accepted steps per orbit and CPU time per
+    step of each method (:func:`step_costs`): the equal-tolerance ratio is their product.
     """
     settings = IntegratorSettings(rtol=rtol, atol=rtol * 1e-2)
     variants = {"variational": {}, "variational_position_error": {"error_norm": "position"},
@@ -230,6 +282,7 @@ def variational_vs_flowmap_case(name, flow, plane, res, T, rtol, repeat=3):
             best[key] = min(best[key], time.perf_counter() - t0)
             cpu[key] = min(cpu[key], time.process_time() - c0)
     old_seconds, old_diff, old_steps = generic_driver_ftle(flow, fields["variational"], settings)
+    per_step = step_costs(flow, fields["variational"], settings)
     var = fields["variational"].values
     ridge = var >= np.nanpercentile(var, 95)
     out = {"case": name, "grid": list(res), "time": T, "rtol": rtol, "threads": 1, "seconds": best,
@@ -241,7 +294,8 @@ def variational_vs_flowmap_case(name, flow, plane, res, T, rtol, repeat=3):
            "position_error_vs_full": _stats(fields["variational_position_error"].values - var),
            "flowmap_vs_variational": _stats(fields["flowmap"].values - var),
            "flowmap_vs_variational_on_ridges": _stats((fields["flowmap"].values - var)[ridge]),
-           "ridge_max": {"variational": float(np.nanmax(var)), "flowmap": float(np.nanmax(fields["flowmap"].values))}}
+           "ridge_max": {"variational": float(np.nanmax(var)), "flowmap": float(np.nanmax(fields["flowmap"].values))},
+           "per_step": per_step}
     print(f"{name}: {res[0]}x{res[1]}, T = {T}, rtol {rtol:g}, one thread (best of {repeat})")
     print(f"  flow map + FD {best['flowmap']:.2f} s | variational {best['variational']:.2f} s "
           f"({out['speed_vs_flowmap']['variational']:.2f}x the flow map) | position-only error "
@@ -251,6 +305,11 @@ def variational_vs_flowmap_case(name, flow, plane, res, T, rtol, repeat=3):
     print(f"  CPU seconds (one thread; less sensitive to a shared machine): flow map {cpu['flowmap']:.2f}, variational "
           f"{cpu['variational']:.2f} ({out['cpu_speed_vs_flowmap']['variational']:.2f}x), position-only "
           f"{cpu['variational_position_error']:.2f} ({out['cpu_speed_vs_flowmap']['variational_position_error']:.2f}x)")
+    print("  per orbit (the kernels alone, one thread): " + "; ".join(
+        f"{key} {per_step[key]['steps_per_orbit']:.2f} steps, {per_step[key]['cpu_ns_per_step']:.0f} CPU ns/step"
+        for key in ("flowmap", "variational_position_error", "variational"))
+        + f"; position-only steps differ from the flow map's on {per_step['orbits_position_steps_differ_from_flowmap']}"
+        f" of {int(np.isfinite(var).sum())} orbits")
     print(f"  position-only vs full: {out['position_error_vs_full']}; flow map vs variational: "
           f"{out['flowmap_vs_variational']}, on ridges {out['flowmap_vs_variational_on_ridges']}")
     return out
