@@ -6,7 +6,8 @@ against ``Rm``. Every full result for the current flow, parameters, vertical
 wavenumber and grid is kept as a point, so the curve builds up while ``Rm`` is
 explored and the onset shows where it crosses zero. While the ``Rm`` slider
 moves, a coarse grid gives the preview; the chosen grid follows on release, with
-its resolution check.
+its resolution check. For a ball flow each grid keeps the last eigenpairs
+(:class:`~flowkit.dynamo.sphere.warm.WarmStart`), so a nearby ``Rm`` starts from them.
 """
 
 from __future__ import annotations
@@ -70,6 +71,7 @@ class DynamoExplorer(Explorer):
             raise FlowkitError(f"`kz` must be a number between 0 and 3 (the slider's range); got {kz!r}")
         self.preview_resolution = int(preview_resolution)
         self.history: dict[tuple, dict[float, tuple[float, float]]] = {}  #: curve key -> {Rm: (rate, freq)}
+        self._warm_starts: dict = {}  # ball flows: flow and parameters -> WarmStart (keyed by grid inside)
         self.rm_slider = log_slider(float(rm), -1, math.log10(300), 0.01, "Rm")
         self.resolution_picker = w.Dropdown(options=list(RESOLUTIONS), value=int(resolution), description="N")
         self.method_picker = w.Dropdown(options=["eigen", "march"], value=method, description="method")
@@ -116,10 +118,15 @@ class DynamoExplorer(Explorer):
         from flowkit.dynamo import growth_rate
 
         n = self.preview_resolution if preview else self.resolution_picker.value
+        extra = {}
         if flow.domain == "ball":  # insulating sphere: (L, N) = (n, n), capped where a solve stays interactive
+            from flowkit.dynamo.sphere.warm import WarmStart
+
             n = (min(n, 24), min(n, 24))
+            key = (flow.name, tuple(flow.param_dict.items()), preview)  # preview and full run in their own threads
+            extra["warm_start"] = self._warm_starts.setdefault(key, WarmStart())
         res = growth_rate(flow, self.rm_slider.value, n, self.method_picker.value,
-                          check_resolution=None if preview else "auto", kz=self.kz)
+                          check_resolution=None if preview else "auto", kz=self.kz, **extra)
         if not preview and math.isfinite(res.growth_rate):
             self.history.setdefault(self._curve_key(flow), {})[res.rm] = (res.growth_rate, res.frequency)
         return res

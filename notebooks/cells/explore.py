@@ -74,17 +74,27 @@ growth_view'''),
     md("""
 ## Would the stirring make a dynamo in a liquid metal?
 
-The same explorer idea for the diffusive dynamo in a periodic cell of liquid
-metal stirred in the ABC pattern: move Rm and the parameters; every full result
-adds a point to the growth-rate curve (right), so the onset shows where it
-crosses zero; left is the leading mode at z = 0. For a stirring independent of z
-(the `roberts` and `circular` flows) tick *one vertical wavenumber* to solve a
-single kz, any real value, on a 2-D grid.
+The same droplet flow in a sphere of liquid metal with an insulating outside: the
+kinematic dynamo of `flowkit.dynamo` (harmonics to degree L = N, N radial nodes).
+Move Rm and the rotation; every full result adds a point to the growth-rate curve
+(below), so the onset shows where it crosses zero; above, |B| of the leading mode
+in the meridional disc y = 0. The full result is checked against the grid 3N/4:
+a large error there means the mode is not resolved yet.
+
+**The answer** (convergence table in the `dynamo` notebook): at rotation 0.3 the
+stirring is a dynamo, **Rm_c = 141.5 ± 1.5** (a steady mode); at rotation 0.1
+there is **no onset below Rm = 240**. The explorer opens on N = 12, where the
+onset sits near Rm = 136 (the table's first row): its first result builds the
+operator (about 6 s of CPU), then each Rm costs about a second, started from the
+last eigenpair. On the N = 8 preview high Rm is not resolved (spurious
+fast-oscillating modes, flagged by the check). N = 16 gives the next row (about
+30 s of CPU at first, then a few seconds per Rm).
 """),
     code('''
 from flowkit.lab import DynamoExplorer
 
-dynamo_view = DynamoExplorer("abc", rm=10.0, resolution=size(16, 8), preview_resolution=8)
+dynamo_view = DynamoExplorer("stf", params={"rotation": 0.3}, rm=140.0, resolution=size(12, 8),
+                             preview_resolution=8)
 dynamo_view'''),
     md("""
 ## A loop carried by the flow: writhe, twist, linking
