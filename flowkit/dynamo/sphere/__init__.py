@@ -12,7 +12,8 @@ Module map: ``basis`` (radial basis, boundary conditions, diffusion), ``harmonic
 needs of a flow), ``operator`` (the induction operator), ``sparse`` (the operator
 as a sparse matrix by colouring), ``parts`` (``D + Rm K`` built once per flow and
 resolution), ``families`` (real form and decoupled families), ``eigen`` (shift-invert
-and propagator Arnoldi),
+and propagator Arnoldi), ``warm`` (the last eigenpair as shift and start vector of the
+next solve), ``threads`` (BLAS limited to one thread during the eigen work),
 ``march`` (time stepping and fit), ``growth`` (the public solve with its
 resolution check), ``mode`` (the field of a mode anywhere), ``flows`` (the
 benchmark flows t1s1 and t2s2 of Proc. R. Soc. Lond. A 425, 1989; their formulas are

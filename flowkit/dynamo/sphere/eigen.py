@@ -7,7 +7,10 @@
   an LU of the shifted block (LAPACK for dense blocks, SuperLU for sparse ones) at shifts next
   to ``guesses`` (default: the leading eigenvalues of a coarse resolution) and at ``shift``.
   In an Rm search pass the previous eigenvalue as ``guesses=[...]`` and ``shift=None``: one
-  real factorisation per family, no coarse solve.
+  real factorisation per family, no coarse solve; ``critical_rm`` and the resolution ladder do
+  that themselves through a :class:`~flowkit.dynamo.sphere.warm.WarmStart` (each family's
+  last leading eigenpair: its eigenvalue as the shift, its eigenvector as ARPACK's ``v0``).
+  All of it runs with BLAS on one thread (:mod:`~flowkit.dynamo.sphere.threads`).
 - ``propagator`` (any flow, all orders coupled, or time-periodic): ARPACK on the
   propagator ``exp(tau A)`` (largest modulus = largest real part), applied by the
   time stepper of :mod:`~flowkit.dynamo.sphere.march`; the eigenvalue is then the
