@@ -166,3 +166,54 @@ def test_singular_velocity_is_reported_as_non_finite():
     res = integrate_states(f, np.array([[0.0, 0, 0], [-1e-3, 0, 0]]), 0.0, 1.0)
     assert res.outcome[0] == Outcome.NON_FINITE
     assert res.outcome[1] == Outcome.FINISHED and abs(res.states[1, 0] + np.sqrt(1e-6 + 2.0)) < 1e-8
+
+
+# -- the 12-component path (position + deformation gradient: batch_solve_12) --------------------
+def _frame(x0):
+    """State rows: positions, then the columns of the identity (J(0) = I)."""
+    x0 = np.atleast_2d(x0)
+    return np.concatenate([x0, np.tile(np.eye(3).T.ravel(), (x0.shape[0], 1))], axis=1)
+
+
+def test_twelve_components_match_the_matrix_exponential_of_a_linear_flow(rotation_flow):
+    # u = A x (the rigid rotation of the fixture, A = [[0, -1, 0], [1, 0, 0], [0, 0, 0]]; its
+    # family is compiled for the tests above, so this adds only the 12-component kernel):
+    # x(t) = expm(A t) x0 and the deformation gradient J(t) = expm(A t) exactly (scipy.linalg.expm
+    # as the reference; at t = 4 expm is not symmetric, so a transposed J would fail).
+    from scipy.linalg import expm
+
+    A = np.array([[0.0, -1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 0.0]])
+    x0 = np.array([[0.3, -0.2, 0.5], [1.0, 0.4, -0.7]])
+    T = 4.0
+    res = integrate_states(rotation_flow, _frame(x0), 0.0, T, IntegratorSettings(rtol=1e-12, atol=1e-14))
+    assert np.all(res.outcome == Outcome.FINISHED)
+    E = expm(A * T)
+    np.testing.assert_allclose(res.states[:, :3], x0 @ E.T, rtol=0, atol=1e-10)
+    for row in res.states:
+        np.testing.assert_allclose(row[3:].reshape(3, 3).T, E, rtol=0, atol=1e-10)
+
+
+def test_twelve_components_match_scipy_dop853_and_the_generic_loops():
+    # stf with the variational equation dJ/dt = (grad u) J, against scipy's solve_ivp(DOP853) on
+    # the same 12 equations (a plain Python right-hand side), and against the generic loops of
+    # batch_solve: the 12-component kernel differs from them at round-off only (contracted
+    # multiply-adds, fused velocity_gradient) and takes the same steps over a short run.
+    f = flowkit.flow("stf", rotation=0.3)
+    x0 = np.array([[0.1, 0.2, 0.3], [0.5, 0.1, -0.2]])
+    T = 5.0
+    st = IntegratorSettings(rtol=1e-12, atol=1e-14)
+    res = integrate_states(f, _frame(x0), 0.0, T, st)
+
+    def rate(t, y):
+        g = f.gradient(y[None, :3])[0]
+        J = y[3:].reshape(3, 3).T
+        return np.concatenate([f.velocity(y[None, :3])[0], (g @ J).T.ravel()])
+
+    for i, row in enumerate(_frame(x0)):
+        ref = solve_ivp(rate, (0, T), row, method="DOP853", rtol=1e-13, atol=1e-15).y[:, -1]
+        np.testing.assert_allclose(res.states[i], ref, rtol=0, atol=1e-8 * np.abs(ref).max())
+    Y = _frame(x0)
+    out = (np.zeros(2, np.int8), np.zeros(2), np.zeros(2, np.int64))
+    f.kernels.batch_solve(Y, 0.0, T, f.params, 0, st.rtol, st.atol, np.inf, st.max_steps, 1, True, *out)
+    assert np.array_equal(out[2], res.steps)
+    assert np.abs(res.states - Y).max() <= 1e-12 * np.abs(Y).max()

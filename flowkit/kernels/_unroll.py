@@ -91,6 +91,21 @@ def dop853_try_source(n: int) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _template_function(name: str) -> str:
+    """The text of the kernel ``name`` in steppers.py, from its decorator to the next kernel."""
+    text = Path(__file__).with_name("steppers.py").read_text()
+    start = text.index(f"@njit(cache=CACHE)\ndef {name}(")
+    end = text.index("\n@njit", start + 10)
+    return text[start:end].rstrip() + "\n"
+
+
+def _renamed(body: str, old: str, new: str) -> str:
+    """``body`` with its one call ``old(`` replaced by ``new`` (a call prefix); refuses anything else."""
+    if body.count(f"{old}(") != 1:
+        raise RuntimeError(f"steppers.py must call {old} exactly once in the copied kernel")
+    return body.replace(f"{old}(", new)
+
+
 def advance_source() -> str:
     """Source of ``dop853_advance_3``: :func:`dop853_advance` calling ``dop853_try_3`` directly.
 
@@ -98,23 +113,37 @@ def advance_source() -> str:
     carries a streamline (the section kernels) compiles neither the 6-component nor the
     generic attempt nor the gradient, which the size test inside ``dop853_try`` would pull in.
     """
-    text = Path(__file__).with_name("steppers.py").read_text()
-    start = text.index("@njit(cache=CACHE)\ndef dop853_advance(")
-    end = text.index("\n@njit", start + 10)
-    body = text[start:end].rstrip() + "\n"
-    body = body.replace("def dop853_advance(", "def dop853_advance_3(", 1)
-    if body.count("dop853_try(") != 1:
-        raise RuntimeError("dop853_advance must call dop853_try exactly once")
-    return body.replace("dop853_try(", "dop853_try_3(")
+    body = _template_function("dop853_advance").replace("def dop853_advance(", "def dop853_advance_3(", 1)
+    return _renamed(body, "dop853_try", "dop853_try_3(")
+
+
+def frame_solve_source() -> str:
+    """Sources of ``dop853_advance_12`` and ``dop853_solve_12``: position + deformation gradient.
+
+    :func:`dop853_advance` and :func:`dop853_solve` from steppers.py's text, the attempt replaced
+    by the 3-D FTLE attempt ``_ftle_try3`` of flowkit/kernels/ftle_dop.py (same layout: position,
+    then the columns of J; stage sums in scalar locals, the fused ``velocity_gradient``, contracted
+    multiply-adds) with every component in the error norm. Only ``batch_solve_12`` calls them, so
+    no other kernel compiles them.
+    """
+    adv = _template_function("dop853_advance").replace("def dop853_advance(", "def dop853_advance_12(", 1)
+    adv = _renamed(adv, "dop853_try", "_ftle_try3(")
+    adv = adv.replace("_ftle_try3(t, y, hh, p, rtol, atol, W)", "_ftle_try3(t, y, hh, p, rtol, atol, W, n)", 1)
+    if "_ftle_try3(t, y, hh, p, rtol, atol, W, n)" not in adv:
+        raise RuntimeError("dop853_advance's attempt call changed; update frame_solve_source")
+    solve = _template_function("dop853_solve").replace("def dop853_solve(", "def dop853_solve_12(", 1)
+    solve = _renamed(solve, "dop853_advance", "dop853_advance_12(")
+    return adv + "\n\n" + solve
 
 
 def unrolled_steps_source() -> str:
-    """The unrolled step attempts for every size in :data:`SIZES` and the streamline's advance.
+    """The unrolled step attempts for every size in :data:`SIZES`, the streamline's advance and the
+    12-component advance and solve (:func:`frame_solve_source`).
 
     (An unrolled streamline dense output measured no faster once only the steps that change side
     build it: 307 against 308 ns per section step, one run at load 5.)
     """
-    return "\n\n".join([dop853_try_source(n) for n in SIZES] + [advance_source()])
+    return "\n\n".join([dop853_try_source(n) for n in SIZES] + [advance_source(), frame_solve_source()])
 
 
 #: generated templates: name -> function returning the source text
