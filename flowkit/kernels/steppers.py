@@ -76,10 +76,17 @@ def dop853_stages(t, y, h, p, W, first, last):
         rhs(t + DOP_C[s] * h, tmp, p, W[s])
 
 
-@njit(cache=CACHE)
+@njit(cache=CACHE, inline="always")
 def dop853_error_norm(y, W, rtol, atol, h, nerr):
     """DOP853's scaled error norm of the attempt in ``W`` over all columns (``nerr`` = n) or the
-    position only (``nerr`` = 3); NaN if anything is non-finite."""
+    position only (``nerr`` = 3); NaN if anything is non-finite.
+
+    Inlined into each caller (numba IR), so it is compiled with the caller's own floating-point
+    flags: numba otherwise compiles a shared callee once, with the flags of whichever caller came
+    first (numba issue #7168), and the generic attempt's numbers then depended on whether a
+    contracting FTLE or 12-component kernel was compiled before it in the process (stf, 12
+    components, t = 2000: 65,854 or 66,787 steps).
+    """
     n = y.shape[0]
     e5 = 0.0
     e3 = 0.0
