@@ -1,4 +1,4 @@
-"""DOP853 step cost: flowkit's kernels against a plain C loop of the same algorithm, and two-core scaling.
+"""DOP853 step cost: flowkit's kernels against a plain C loop of the same algorithm.
 
 Standalone: ``python benchmarks/bench_steps.py`` (or ``bash run.sh bench steps``).
 Writes ``benchmarks/results/bench_steps.json``. All ratios are within this run; the
@@ -13,8 +13,9 @@ load average is recorded (the machine's two cores may be shared, so figures are 
    five, so a change of machine load hits both): the section kernel (dense output and crossing
    location on the steps that may hold a crossing) and the plain batch stepper for 40,000
    upward crossings of y = 0 (3 components); the stepper with one field vector (6) and the full
-   deformation gradient (12) over t = 2000 against the C loop with the same state.
-3. Two threads against one: 16-seed sections and a 64-orbit field-vector batch.
+   deformation gradient (12) over t = 2000 against the C loop with the same state. For 12 also
+   the generic loops (``kernels.batch_solve``, the path before ``batch_solve_12``), interleaved too.
+Two-thread scaling is measured by benchmarks/bench_threads.py.
 """
 
 from __future__ import annotations
@@ -27,13 +28,14 @@ import sys
 import tempfile
 from pathlib import Path
 
+import numba
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).parent))
 from _common import best_of, save  # noqa: E402
 
 import flowkit  # noqa: E402
-from flowkit.integrate.batch import IntegratorSettings, integrate_states  # noqa: E402
+from flowkit.integrate.batch import IntegratorSettings, integrate_states, thread_limit  # noqa: E402
 from flowkit.integrate.tableau import DOP_A, DOP_B, DOP_C, DOP_E3, DOP_E5  # noqa: E402
 from flowkit.sections import Plane, poincare_section, warm_sections  # noqa: E402
 
@@ -93,6 +95,15 @@ def tangent_states(x0: np.ndarray, k: int) -> np.ndarray:
     return Y
 
 
+def generic_loops(flow, Y: np.ndarray, t_end: float) -> tuple[int, np.ndarray]:
+    """The generic batch kernel (loops over the components) on one row: (steps, final states)."""
+    Z = Y.copy()
+    out = (np.zeros(1, np.int8), np.zeros(1), np.zeros(1, np.int64))
+    with thread_limit(1), numba.parallel_chunksize(1):
+        flow.kernels.batch_solve(Z, 0.0, t_end, flow.params, 0, RTOL, ATOL, np.inf, 10**7, 1, flow.domain == "ball", *out)
+    return int(out[2][0]), Z
+
+
 def _best(runs: list[dict]) -> dict:
     return min(runs, key=lambda r: r["seconds"])
 
@@ -133,43 +144,40 @@ def main() -> int:
             n = 3 + 3 * k
             Y = tangent_states(SEED[None], k)
             integrate_states(flow, Y.copy(), 0.0, 1.0, S, threads=1)  # compile
-            runs, fk = [], []
+            runs, fk, gen = [], [], []
+            if n == 12:
+                generic_loops(flow, Y, 1.0)  # compile
             for _ in range(REPEAT):
                 if have_c:
                     runs.append(c_run(exes[k], 10**12, T_TANGENT))
                 fk.append(best_of(lambda: integrate_states(flow, Y.copy(), 0.0, T_TANGENT, S, threads=1), repeat=1))
+                if n == 12:
+                    gen.append(best_of(lambda: generic_loops(flow, Y, T_TANGENT), repeat=1))
             res = integrate_states(flow, Y.copy(), 0.0, T_TANGENT, S, threads=1)
             stepper[n] = {"seconds": min(fk), "steps": int(res.steps[0]), "ns_per_step": 1e9 * min(fk) / int(res.steps[0]),
                           "outcomes": res.outcomes, "t_end": T_TANGENT}
+            if n == 12:
+                g_steps = int(generic_loops(flow, Y, T_TANGENT)[0])
+                stepper["12_generic_loops"] = {"seconds": min(gen), "steps": g_steps,
+                                               "ns_per_step": 1e9 * min(gen) / g_steps, "t_end": T_TANGENT}
+                short = integrate_states(flow, Y.copy(), 0.0, 20.0, S, threads=1).states
+                ref = generic_loops(flow, Y, 20.0)[1]
+                stepper["12_max_rel_diff_t20"] = float(np.abs(short - ref).max() / np.abs(ref).max())
             if have_c:
                 b = _best(runs)
                 c[n] = {**b, "ns_per_accepted_step": 1e9 * b["seconds"] / b["accepted"]}
     load_mid = os.getloadavg()
 
-    # 3. two threads against one
-    rng = np.random.default_rng(0)
-    seeds = rng.uniform(-0.6, 0.6, size=(16, 3))
-    seeds[:, 1] = 0.0
-    many = rng.uniform(-0.5, 0.5, size=(64, 3))
-    scaling = {}
-    for threads in (1, 2):
-        scaling[threads] = {
-            "sections_16x4000": best_of(lambda: poincare_section(flow, seeds, PLANE, crossings=4000, rtol=RTOL,
-                                                                 atol=ATOL, threads=threads), repeat=2),
-            "field_vectors_64": best_of(lambda: integrate_states(flow, tangent_states(many, 1), 0.0, 200.0, S,
-                                                                 threads=threads), repeat=2),
-        }
-    load_after = os.getloadavg()
-
     data = {"flow": "stf", "rotation": ROT, "rtol": RTOL, "atol": ATOL, "crossings": K,
             "c_reference": c if have_c else exes, "c_compiler": exes.get("compiler") if have_c else None,
             "flowkit_section": section, "flowkit_stepper": stepper,
-            "two_threads": {k: scaling[1][k] / scaling[2][k] for k in scaling[1]}, "one_two_seconds": scaling,
-            "load_average_before": load_before, "load_average_after_steps": load_mid, "load_average_after": load_after}
+            "load_average_before": load_before, "load_average_after": load_mid}
     if have_c:
         data["c_over_flowkit_section_per_step"] = c[3]["ns_per_accepted_step"] / section["ns_per_step"]
         data["c_over_flowkit_stepper_per_step"] = {n: c[n]["ns_per_accepted_step"] / stepper[n]["ns_per_step"]
-                                                   for n in stepper}
+                                                   for n in stepper if not isinstance(n, str)}
+        data["c_over_flowkit_stepper_per_step"]["12_generic_loops"] = (
+            c[12]["ns_per_accepted_step"] / stepper["12_generic_loops"]["ns_per_step"])
         print(f"C loop ({exes['compiler']}), 3 components: {c[3]['ns_per_attempt']:.0f} ns/attempt, "
               f"{c[3]['ns_per_accepted_step']:.0f} ns/accepted step, {c[3]['crossings_per_second']:,.0f} crossings/s")
     else:
@@ -177,6 +185,14 @@ def main() -> int:
     print(f"flowkit section kernel: {section['ns_per_step']:.0f} ns/step, {section['crossings_per_second']:,.0f} "
           f"crossings/s ({section['steps']} steps)")
     for n, r in stepper.items():
+        if n == "12_max_rel_diff_t20":
+            continue
+        if n == "12_generic_loops":
+            line = f"flowkit generic loops, 12 components: {r['ns_per_step']:.0f} ns/step ({r['steps']} steps)"
+            if have_c:
+                line += f" -> C/flowkit {data['c_over_flowkit_stepper_per_step'][n]:.2f}x"
+            print(line)
+            continue
         line = f"flowkit stepper, {n:2d} components: {r['ns_per_step']:.0f} ns/step ({r['steps']} steps)"
         if have_c:
             line += (f"; C {c[n]['ns_per_accepted_step']:.0f} ns/accepted step ({c[n]['accepted']} steps) -> "
@@ -184,10 +200,9 @@ def main() -> int:
         print(line)
     if have_c:
         print(f"C / flowkit per step, section kernel: {data['c_over_flowkit_section_per_step']:.2f}x")
-    for k, v in data["two_threads"].items():
-        print(f"two threads / one, {k}: {v:.2f}x")
-    print(f"load average before {load_before}, after the step figures {load_mid}, after {load_after} "
-          "(2 cores; others may share them)")
+    print(f"12 components, batch_solve_12 against the generic loops at t = 20: max relative difference "
+          f"{stepper['12_max_rel_diff_t20']:.1e}")
+    print(f"load average before {load_before}, after {load_mid} (2 cores; others may share them)")
     save("bench_steps", data)
     return 0
 
