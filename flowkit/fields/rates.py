@@ -123,3 +123,27 @@ def log_sum_exp(a: np.ndarray, axis: int = 0) -> np.ndarray:
     m = np.where(np.isfinite(m), m, 0.0)
     with np.errstate(divide="ignore"):
         return np.log(np.sum(np.exp(a - m), axis=axis)) + np.squeeze(m, axis=axis)
+
+
+def group_log_sum_exp(a: np.ndarray, group: np.ndarray, n_groups: int) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`log_sum_exp` over the rows of ``a`` in each group, all groups in one pass.
+
+    Returns ``(lse, count)``: ``lse[g]`` is the sum over rows with ``group == g``
+    (``-inf`` for an empty group) and ``count[g]`` their number.
+    """
+    a = np.asarray(a, dtype=float)
+    group = np.asarray(group, dtype=np.int64)
+    lse = np.full((n_groups,) + a.shape[1:], -np.inf)
+    count = np.bincount(group, minlength=n_groups).astype(np.int64)
+    if a.shape[0] == 0:
+        return lse, count
+    order = np.argsort(group, kind="stable")
+    a, group = a[order], group[order]
+    live = np.flatnonzero(count)
+    starts = np.concatenate([[0], np.cumsum(count[live])[:-1]])
+    m = np.maximum.reduceat(a, starts, axis=0)
+    m = np.where(np.isfinite(m), m, 0.0)
+    rank = np.repeat(np.arange(live.size), count[live])
+    with np.errstate(divide="ignore"):
+        lse[live] = np.log(np.add.reduceat(np.exp(a - m[rank]), starts, axis=0)) + m
+    return lse, count

@@ -64,7 +64,8 @@ from flowkit.fields.particles import (
     advance_points, check_duration, check_points, check_system, check_transient, checkpoints, default_seeds,
     provenance_of, random_directions, run_frames, stretch_settings, units, _planar,
 )
-from flowkit.fields.rates import RateEstimate, jackknife_stderr, log_sum_exp, mean_rate, ols_weights, window_mask
+from flowkit.fields.rates import (RateEstimate, group_log_sum_exp, jackknife_stderr, log_sum_exp, mean_rate,
+                                  ols_weights, window_mask)
 from flowkit.fields.results import StretchResult
 from flowkit.flows.maps import is_map
 from flowkit.integrate.batch import IntegratorSettings
@@ -294,12 +295,7 @@ def _run_chunk(system, X, B, idx, marks, transient, settings, threads, weights, 
     logB = line - dens if quantity == "field" else line
     logB[~ok] = np.nan
     gid = idx % G
-    lse = np.full((G, len(marks), len(Q)), -np.inf)
-    count = np.zeros(G, dtype=np.int64)
-    for g in np.unique(gid[ok]):
-        sub = logB[ok & (gid == g)]
-        lse[g] = log_sum_exp(sub[:, :, None] * Q[None, None, :], axis=0)
-        count[g] = len(sub)
+    lse, count = group_log_sum_exp(logB[ok][:, :, None] * Q[None, None, :], gid[ok], G)
     good = logB[ok]
     rates = np.full(nc, np.nan)
     rates[ok] = line[ok] @ weights
