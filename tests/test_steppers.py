@@ -217,3 +217,24 @@ def test_twelve_components_match_scipy_dop853_and_the_generic_loops():
     f.kernels.batch_solve(Y, 0.0, T, f.params, 0, st.rtol, st.atol, np.inf, st.max_steps, 1, True, *out)
     assert np.array_equal(out[2], res.steps)
     assert np.abs(res.states - Y).max() <= 1e-12 * np.abs(Y).max()
+
+
+def test_kernel_functions_never_inherit_a_callers_contraction():
+    # numba gives a function with no fastmath flags of its own those of the first caller that
+    # compiles it; kernel modules state them (flowkit/kernels/__init__.py), so a plain multiply-add
+    # first compiled for a contracting caller stays unfused for every caller. Exact IEEE identity:
+    # a = 1 + 2^-30, b = 1 - 2^-30, a*b = 1 - 2^-60 rounds to 1, so a*b - 1 is 0 unfused and
+    # -2^-60 as one fused multiply-add (common practice, no source).
+    from flowkit.kernels import build_module
+
+    code = (
+        "@njit(cache=CACHE)\ndef order_madd(a, b, c):\n    return a * b + c\n\n"
+        "@njit(cache=CACHE, fastmath={'contract'})\ndef order_fused_caller(a, b, c):\n"
+        "    return order_madd(a, b, c)\n\n"
+        "@njit(cache=CACHE)\ndef order_plain_caller(a, b, c):\n    return order_madd(a, b, c)\n"
+    )
+    mod = build_module("compile-order", code)
+    a, b = 1.0 + 2.0**-30, 1.0 - 2.0**-30
+    assert mod.order_fused_caller(a, b, -1.0) == 0.0  # compiles order_madd first, for the contracting caller
+    assert mod.order_plain_caller(a, b, -1.0) == 0.0
+    assert mod.order_madd(a, b, -1.0) == 0.0

@@ -109,8 +109,6 @@ def mean_rate(slopes: np.ndarray, win: tuple, what: str) -> RateEstimate:
                         f"mean over particles of the least-squares slope of {what}; standard error over particles")
 
 
-
-
 def log_sum_exp(a: np.ndarray, axis: int = 0) -> np.ndarray:
     """``ln sum exp(a)`` along ``axis`` without overflow (all ``-inf`` gives ``-inf``, a NaN gives NaN).
 

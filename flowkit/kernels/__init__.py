@@ -87,10 +87,11 @@ def _template_text(name: str) -> str:
     return f"# ---- template: {name} ----\n" + "\n".join(lines) + "\n"
 
 
-#: Every function of a kernel module states its fastmath flags (default: none). numba lets a
-#: callee that states none inherit the flags of the first caller that compiles it, so a velocity
-#: first called from a contracting FTLE kernel was contracted for every later caller too, and a
-#: section's numbers depended on which kernel compiled first in the process.
+#: Every function of a kernel module states ``fastmath``, ``error_model`` and ``boundscheck``
+#: (defaults: none, "python", off). numba lets a callee that leaves them unset inherit those of
+#: the first caller that compiles it, so a velocity first called from a contracting FTLE kernel
+#: was contracted for every later caller too, and results depended on which kernel compiled
+#: first in the process (tests/test_steppers.py pins this).
 _NJIT_SOURCE = (
     "def njit(*args, **kw):\n"
     "    kw.setdefault('fastmath', False)  # stated, so never inherited from a caller\n"
