@@ -5,8 +5,10 @@ import tempfile
 # never read a cache written by another checkout.
 os.environ.setdefault("FLOWKIT_CACHE_DIR", os.path.join(tempfile.gettempdir(), "flowkit-test-cache"))
 
-# No generic first-section kernels in tests: short-lived test processes (notebooks, README blocks,
-# CLI calls) would start a background compile of the flow's own kernel and exit before it ends,
-# so every process would pay for it again. The generic path has its own tests (test_sections.py
-# compares it bit for bit with the specialized kernel; test_readme.py accepts either).
-os.environ.setdefault("FLOWKIT_GENERIC_KERNELS", "0")
+# Sections in tests run on the generic kernel (compiled once for every flow) and never start the
+# background compile of a flow's own kernel: the suite builds some sixty flows, most of them for a
+# test or two, and each own section kernel costs 15-20 s of compilation (twelve of them, some
+# 190 s, in a cold run before). The results are the same bits: test_sections.py compares the two
+# kernels crossing by crossing on an unbounded flow, a ball flow, a blow-up and both directions,
+# and tests that need the flow's own kernel ask for it (warm_sections(flow, wait=True)).
+os.environ.setdefault("FLOWKIT_GENERIC_KERNELS", "only")

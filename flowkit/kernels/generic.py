@@ -31,7 +31,9 @@ from numba import types
 from numba.core import cgutils
 from numba.extending import intrinsic
 
-#: set to "0" to compile every flow's own kernels before its first section (no generic path)
+#: "0": compile every flow's own section kernel before its first section (no generic path);
+#: "only": sections of flows whose own kernel is not ready stay on the generic kernel and nothing
+#: compiles in the background (the test suite: many short-lived flows, the same bits either way)
 ENV_SWITCH = "FLOWKIT_GENERIC_KERNELS"
 
 _LOCK = threading.Lock()
@@ -106,6 +108,11 @@ def gradient_pointer(x, y, z, t, pp, out):
 def enabled() -> bool:
     """Is the generic path on (environment switch :data:`ENV_SWITCH`, default on)?"""
     return os.environ.get(ENV_SWITCH, "1") != "0"
+
+
+def only() -> bool:
+    """Generic kernels without the background compile of the flow's own (:data:`ENV_SWITCH` = "only")?"""
+    return os.environ.get(ENV_SWITCH, "1") == "only"
 
 
 def generic_kernels() -> ModuleType:

@@ -249,6 +249,8 @@ def _pick_kernel(flow: Flow, mcode: int, pvec, opts: tuple):
     if params is None:
         return kernel, flow.params, None
     shared = generic.generic_kernels().sec_batch_dop853
+    if generic.only():
+        return shared, params, None
 
     def warm():  # compile only (the same argument types as the generic kernel's): never a second parallel run
         kernel.compile(shared.signatures[0])

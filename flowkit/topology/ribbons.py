@@ -174,7 +174,7 @@ def edge_offset(rb: Ribbon, dist: float) -> float:
 def ribbon_parts(rb: Ribbon, threads: int | None = None, smooth: bool | None = None) -> dict:
     """Twist, writhe, linking with the edge and the Călugăreanu–White defect of a ribbon (plain dict)."""
     P = rb.points
-    wr, bound, dist, i, j = writhe_auto(P, threads)  # fast sums (with a bound) from 20,000 points
+    wr, bound, dist, i, j = writhe_auto(P, threads)  # fast writhe (with a bound) from 4,000 points, fast linking from 20,000² pairs
     check_apart(dist, i, j, P, P, rb.curve.diameter(), "the ribbon's curve crosses itself")
     tw, turn = polygon_twist(P, rb.normals)
     eps = edge_offset(rb, dist)
@@ -227,8 +227,9 @@ def ribbon_topology(rb, normals=None, *, n: int | None = None, error: bool = Tru
     return RibbonTopology(**parts, writhe_error=wr_err, twist_error=tw_err, points=rb.points, normals=rb.normals,
                           notes=notes, provenance={"ribbon": rb.description,
                                                    "method": "polygon twist with parallel transport at corners; "
-                                                             "polygon Gauss integrals (exact; fast with a bound "
-                                                             "from 20,000 points)"})
+                                                             "polygon Gauss integrals (exact; fast with a bound: "
+                                                             "writhe from 4,000 points, linking from 20,000² "
+                                                             "segment pairs)"})
 
 
 def flux_tube_lines(rb: Ribbon, radius: float, twist: int = 0, lines: int = 6) -> list[np.ndarray]:
