@@ -238,3 +238,45 @@ def test_kernel_functions_never_inherit_a_callers_contraction():
     assert mod.order_fused_caller(a, b, -1.0) == 0.0  # compiles order_madd first, for the contracting caller
     assert mod.order_plain_caller(a, b, -1.0) == 0.0
     assert mod.order_madd(a, b, -1.0) == 0.0
+
+
+def _kernel_runs(name: str, f, kernel, params):
+    """Outputs of one call of the kernel ``name`` (own or generic) on three stf orbits."""
+    import math
+
+    from flowkit.sections import Plane
+    from flowkit.sections.compute import _plane_vector
+
+    x0 = np.array([[0.1, 0.0, 0.2], [0.3, 0.05, -0.4], [-0.5, 0.2, 0.1]])
+    n = len(x0)
+    Y = np.zeros((n, 6))
+    Y[:, :3] = x0
+    Y[:, 3] = 1.0  # one tangent vector (orthonormal, as tangent_batch requires)
+    codes = (np.zeros(n, dtype=np.int8), np.zeros(n), np.zeros(n, dtype=np.int64))
+    if name == "batch_solve":
+        kernel(Y, 0.0, 20.0, params, 0, 1e-10, 1e-12, math.inf, 10**6, 1, True, *codes)
+        return Y, *codes
+    if name == "tangent_batch":
+        logs, div = np.full((n, 4, 1), np.nan), np.full((n, 4), np.nan)
+        kernel(Y, np.linspace(0.0, 20.0, 5), params, 1e-10, 1e-12, math.inf, 10**6, True, logs, div, *codes)
+        return Y, logs, div, *codes
+    plane, _ = _plane_vector(f, Plane((0, 1, 0), 0.0, "+"))
+    t_out, outcome, steps = np.zeros(n), np.zeros(n, dtype=np.int8), np.zeros(n, dtype=np.int64)
+    kernel(Y, 0.0, 1.0, 3, np.full(n, 100.0), params, 1e-10, 1e-12, math.inf, 10**6, True, plane, t_out, outcome, steps)
+    return Y, t_out, outcome - 4, steps  # outcome 4: the return was found
+
+
+@pytest.mark.parametrize("name", ["batch_solve", "tangent_batch", "rm_batch"])
+def test_generic_kernels_give_the_family_kernels_numbers_bit_for_bit(name):
+    """The generic kernels (the flow's velocity and gradient called through pointers, compiled once
+    for every flow; tests/conftest.py runs the suite on them) do the family kernels' arithmetic in the
+    same order: exact identity of every output."""
+    from flowkit.kernels import generic
+
+    f = flowkit.flow("stf", rotation=0.3)
+    own = _kernel_runs(name, f, getattr(f.kernels, name), f.params)
+    shared = _kernel_runs(name, f, getattr(generic.generic_kernels(), name), generic.pointer_params(f))
+    assert np.all(own[-3 if name != "rm_batch" else -2] == 0)  # every orbit finished (rm_batch: 3rd return found)
+    assert np.all(np.isfinite(own[0])) and not np.array_equal(own[0][:, :3], [[0.1, 0.0, 0.2]] * 3)
+    for a, b in zip(own, shared):
+        assert np.array_equal(a, b, equal_nan=True)

@@ -103,9 +103,10 @@ def run_tangent(flow: Flow, states: np.ndarray, times: np.ndarray, settings: Int
     t_end = np.zeros(N)
     steps = np.zeros(N, dtype=np.int64)
     t0 = _time.perf_counter()
+    kernel, params = flow.kernel("tangent_batch")
     with thread_limit(threads), numba.parallel_chunksize(1):
-        flow.kernels.tangent_batch(
-            states, np.ascontiguousarray(times, dtype=np.float64), flow.params, settings.rtol, settings.atol,
+        kernel(
+            states, np.ascontiguousarray(times, dtype=np.float64), params, settings.rtol, settings.atol,
             float(settings.max_step), int(settings.max_steps if max_steps is None else max_steps),
             flow.domain == "ball",
             logs, div, outcome, t_end, steps,

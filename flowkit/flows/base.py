@@ -155,6 +155,16 @@ class Flow:
     def kernels(self) -> ModuleType:
         return self.family.kernels
 
+    def kernel(self, name: str):
+        """``(kernel, params)``: the compiled kernel ``name`` to run and the parameter vector to pass.
+
+        The family's own kernel with :attr:`params`, or the generic one while that is not
+        ready when ``FLOWKIT_GENERIC_KERNELS=only`` (:func:`flowkit.kernels.generic.kernel_for`).
+        """
+        from flowkit.kernels.generic import kernel_for
+
+        return kernel_for(self, name)
+
     @property
     def param_dict(self) -> dict[str, float]:
         return {k: float(v) for k, v in zip(self.family.param_names, self.params)}

@@ -151,8 +151,9 @@ def integrate_states(
                 int(settings.max_steps), flow.domain == "ball", outcome, t_end, steps,
             )
         else:
-            flow.kernels.batch_solve(
-                Y, float(t0), float(t1), flow.params, METHODS[settings.method], settings.rtol, settings.atol,
+            kernel, params = flow.kernel("batch_solve")
+            kernel(
+                Y, float(t0), float(t1), params, METHODS[settings.method], settings.rtol, settings.atol,
                 float(settings.max_step), int(settings.max_steps), nsteps, flow.domain == "ball",
                 outcome, t_end, steps,
             )

@@ -32,8 +32,9 @@ from numba.core import cgutils
 from numba.extending import intrinsic
 
 #: "0": compile every flow's own section kernel before its first section (no generic path);
-#: "only": sections of flows whose own kernel is not ready stay on the generic kernel and nothing
-#: compiles in the background (the test suite: many short-lived flows, the same bits either way)
+#: "only": whatever of a flow's own kernels is not ready (sections, batches, tangent vectors, return
+#: maps) runs on the generic set and nothing compiles in the background: for trying many formulas
+#: (no 15-20 s compile per formula, about 1.5x slower per step) and the test suite; the same bits
 ENV_SWITCH = "FLOWKIT_GENERIC_KERNELS"
 
 _LOCK = threading.Lock()
@@ -156,6 +157,21 @@ def pointer_params(flow) -> np.ndarray | None:
             _POINTERS[digest] = (module, addr.view(np.float64))
         module, bits = _POINTERS[digest]
     return np.concatenate([np.asarray(flow.params, dtype=np.float64), bits])
+
+
+def kernel_for(flow, name: str):
+    """``(kernel, params)`` to call the flow's kernel ``name`` with.
+
+    The flow's own kernel and ``flow.params``; in "only" mode (:data:`ENV_SWITCH`), while
+    that kernel is neither compiled nor cached, the generic set's and the pointer parameters.
+    For kernels built on ``velocity`` and ``gradient`` alone (not the fused FTLE ones).
+    """
+    own = getattr(flow.kernels, name)
+    if only() and not ready(own):
+        params = pointer_params(flow)
+        if params is not None:
+            return getattr(generic_kernels(), name), params
+    return own, flow.params
 
 
 def ready(kernel) -> bool:

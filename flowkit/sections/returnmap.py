@@ -174,10 +174,10 @@ class ReturnMap:
         t_start = self.t0 + (self.section.phase if self.strobe else 0.0)
         if threads is None and N < 8:
             threads = 1  # waking a thread pool costs more than a few returns (and much more on a busy machine)
+        kernel, params = self.flow.kernel("rm_batch")
         with thread_limit(threads), numba.parallel_chunksize(1):
-            self.flow.kernels.rm_batch(Y, t_start, direction, k, spans, self.flow.params, self.rtol, self.atol,
-                                       math.inf, int(self.max_steps * k), self.flow.domain == "ball", plane,
-                                       t_out, outcome, steps)
+            kernel(Y, t_start, direction, k, spans, params, self.rtol, self.atol, math.inf, int(self.max_steps * k),
+                   self.flow.domain == "ball", plane, t_out, outcome, steps)
         ok = outcome == (_FINISHED if self.strobe else _CROSSING_FOUND)
         if not self.strobe:  # a near-instant "return" is the start itself at a tangency of the plane
             ok &= np.abs(t_out - t_start) > max(self.min_time, 1e-9)

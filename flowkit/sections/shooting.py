@@ -44,9 +44,10 @@ def _flow_map(flow, x0: np.ndarray, T: float, rtol: float, atol: float):
     plane = np.zeros(9)
     plane[5] = 1.0  # fixed-time mode of the return kernel
     t_out, oc, st = np.zeros(1), np.zeros(1, np.int8), np.zeros(1, np.int64)
+    kernel, params = flow.kernel("rm_batch")
     with thread_limit(1), numba.parallel_chunksize(1):
-        flow.kernels.rm_batch(Y, 0.0, 1.0 if T >= 0 else -1.0, 1, np.array([abs(T)]), flow.params, rtol, atol,
-                              math.inf, 10_000_000, flow.domain == "ball", plane, t_out, oc, st)
+        kernel(Y, 0.0, 1.0 if T >= 0 else -1.0, 1, np.array([abs(T)]), params, rtol, atol, math.inf, 10_000_000,
+               flow.domain == "ball", plane, t_out, oc, st)
     if oc[0] != 0 or not np.all(np.isfinite(Y)):
         return None, None
     return Y[0, :3].copy(), Y[0, 3:].reshape(3, 3).T
