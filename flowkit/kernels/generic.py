@@ -32,7 +32,7 @@ from numba.core import cgutils
 from numba.extending import intrinsic
 
 #: "0": compile every flow's own section kernel before its first section (no generic path);
-#: "only": whatever of a flow's own kernels is not ready (sections, batches, tangent vectors, return
+#: "only": whatever of a flow's own kernels is not ready (DOP853 sections, batches, tangent vectors, return
 #: maps) runs on the generic set and nothing compiles in the background: for trying many formulas
 #: (no 15-20 s compile per formula, about 1.5x slower per step) and the test suite; the same bits
 ENV_SWITCH = "FLOWKIT_GENERIC_KERNELS"

@@ -241,7 +241,7 @@ def _pick_kernel(flow: Flow, mcode: int, pvec, opts: tuple):
     background thread, so later sections of this flow run at full speed.
     """
     if mcode != 0:
-        return (*flow.kernel("sec_batch_fixed"), None)
+        return flow.kernels.sec_batch_fixed, flow.params, None  # own: splitting needs the family's sub-fields
     kernel = flow.kernels.sec_batch_dop853
     if not generic.enabled() or generic.ready(kernel):
         return kernel, flow.params, None
