@@ -12,3 +12,13 @@ os.environ.setdefault("FLOWKIT_CACHE_DIR", os.path.join(tempfile.gettempdir(), "
 # kernels crossing by crossing on an unbounded flow, a ball flow, a blow-up and both directions,
 # and tests that need the flow's own kernel ask for it (warm_sections(flow, wait=True)).
 os.environ.setdefault("FLOWKIT_GENERIC_KERNELS", "only")
+
+
+#: test files that start real JupyterLab/Chromium or fresh interpreters: run after the unit tests, when
+#: the kernels they load are cached (the browser test's set-up took 78 s first in a cold run, 23 s warm)
+LATE = ("test_browser.py",)
+
+
+def pytest_collection_modifyitems(session, config, items):
+    """Move the LATE files to the end of the run, keeping every other order."""
+    items.sort(key=lambda item: item.path.name in LATE)

@@ -155,7 +155,7 @@ class Flow:
     def kernels(self) -> ModuleType:
         return self.family.kernels
 
-    def kernel(self, name: str):
+    def kernel(self, name: str) -> tuple:
         """``(kernel, params)``: the compiled kernel ``name`` to run and the parameter vector to pass.
 
         The family's own kernel with :attr:`params`, or the generic one while that is not

@@ -159,7 +159,7 @@ def pointer_params(flow) -> np.ndarray | None:
     return np.concatenate([np.asarray(flow.params, dtype=np.float64), bits])
 
 
-def kernel_for(flow, name: str):
+def kernel_for(flow, name: str) -> tuple:
     """``(kernel, params)`` to call the flow's kernel ``name`` with.
 
     The flow's own kernel and ``flow.params``; in "only" mode (:data:`ENV_SWITCH`), while
