@@ -7,12 +7,35 @@ section II.10). The published coefficients are taken from scipy's copy
 tests/test_steppers.py checks their order conditions.
 """
 
+import importlib.util
+import os
+
 import numpy as np
 
-try:
-    from scipy.integrate._ivp import dop853_coefficients as _d
-except ImportError as exc:  # pragma: no cover - only if scipy reorganises
-    raise ImportError("flowkit needs scipy's DOP853 coefficient table (scipy >= 1.4)") from exc
+
+def _scipy_dop853_table():
+    """scipy's DOP853 coefficient module (it imports numpy only), loaded from its file.
+
+    Importing it through the ``scipy.integrate`` package costs 0.8 s (the package imports
+    scipy.special, quadrature and BVP code), which a new formula's first section would wait
+    for; nothing else in a section needs that package.
+    """
+    spec = importlib.util.find_spec("scipy")
+    for base in (spec.submodule_search_locations or []) if spec else []:
+        path = os.path.join(base, "integrate", "_ivp", "dop853_coefficients.py")
+        if os.path.isfile(path):
+            table = importlib.util.spec_from_file_location("flowkit.integrate._scipy_dop853_coefficients", path)
+            module = importlib.util.module_from_spec(table)
+            table.loader.exec_module(module)
+            return module
+    try:  # pragma: no cover - a scipy laid out differently
+        from scipy.integrate._ivp import dop853_coefficients
+    except ImportError as exc:  # pragma: no cover - only if scipy reorganises
+        raise ImportError("flowkit needs scipy's DOP853 coefficient table (scipy >= 1.4)") from exc
+    return dop853_coefficients
+
+
+_d = _scipy_dop853_table()
 
 N_STAGES = 12
 #: stage matrix (16 x 16: 12 stages, FSAL row, 3 extra stages for dense output)
