@@ -41,6 +41,7 @@ _LOCK = threading.Lock()
 _POINTERS: dict[str, tuple[ModuleType, np.ndarray]] = {}
 _BACKGROUND: dict[str, threading.Thread] = {}
 _GENERIC: list[ModuleType] = []
+_CHOICE: dict[tuple[str, str], bool] = {}  # (kernel module, kernel name) -> own kernel chosen ("only" mode)
 
 
 def _pointer_call(nout: int):
@@ -167,11 +168,17 @@ def kernel_for(flow, name: str) -> tuple:
     For kernels built on ``velocity`` and ``gradient`` alone (not the fused FTLE ones).
     """
     own = getattr(flow.kernels, name)
-    if only() and not ready(own):
-        params = pointer_params(flow)
-        if params is not None:
-            return getattr(generic_kernels(), name), params
-    return own, flow.params
+    if not only():
+        return own, flow.params
+    key = (flow.kernels.__name__, name)
+    with _LOCK:
+        # decided once per process: another process caching the own kernel meanwhile must not switch a
+        # running analysis over to loading (or compiling) it between two of its chunks
+        use_own = _CHOICE.setdefault(key, ready(own))
+    params = None if use_own else pointer_params(flow)
+    if params is None:
+        return own, flow.params
+    return getattr(generic_kernels(), name), params
 
 
 def ready(kernel) -> bool:
