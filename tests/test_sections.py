@@ -36,10 +36,6 @@ def rotation():
 
 
 
-def _outward():
-    return flowkit.custom_flow(["x", "y", "-2*z"], domain="ball")  # pushes orbits through r = 1
-
-
 #: (flow, seeds, plane, crossings, t_max, bounded, expected outcomes): a chaotic ball flow; a blow-up
 #: beside a finished orbit with both crossing directions (each case compiles the flow's own kernel)
 GENERIC_CASES = {
@@ -238,7 +234,8 @@ def test_blow_up_and_escape_are_outcomes_and_the_rest_of_the_batch_is_kept(rotat
     assert sec.outcome[1] == Outcome.CROSSING_BUDGET and sec.counts[1] == 5
     assert sec.t_end[0] < 2.0 + 1e-6  # z = 0.5 / (1 - 0.5 t) blows up at t = 2
     assert np.all(np.isfinite(sec.points))
-    sec = poincare_section(_outward(), [[0.5, 0.0, 0.0], [0.0, 0.0, 0.5]], Plane((1, 0, 0), 0.6, "+"), crossings=5, t_max=5.0)
+    out = flowkit.custom_flow(["x", "y", "-2*z"], domain="ball")  # pushes orbits through r = 1
+    sec = poincare_section(out, [[0.5, 0.0, 0.0], [0.0, 0.0, 0.5]], Plane((1, 0, 0), 0.6, "+"), crossings=5, t_max=5.0)
     assert sec.outcome[0] == Outcome.LEFT_DOMAIN and sec.counts[0] == 1
     assert abs(sec.time[0] - math.log(1.2)) < 1e-9  # x = 0.5 e^t reaches 0.6 (exact solution)
     assert sec.outcome[1] == Outcome.FINISHED and sec.counts[1] == 0

@@ -249,7 +249,7 @@ def _pick_kernel(flow: Flow, mcode: int, pvec, opts: tuple):
     if params is None:
         return kernel, flow.params, None
     shared = generic.generic_kernels().sec_batch_dop853
-    if generic.only():
+    if generic.only():  # chosen per section call (one kernel call per chunk of this run): never mid-run
         return shared, params, None
 
     def warm():  # compile only (the same argument types as the generic kernel's): never a second parallel run

@@ -238,7 +238,7 @@ def material_ribbon(flow, time=None, curve=None, normals=None, *, periods: int |
     def measure(k):
         X, N = state[1][:, :3], state[1][:, 6:]
         seg = _cyclic(X)
-        wr, bound, dist, i, j = writhe_auto(X, threads)  # fast writhe (with a bound) from 4,000 points, fast linking from 20,000² pairs
+        wr, bound, dist, i, j = writhe_auto(X, threads)  # the fast sum (with a bound) from FAST_FROM points
         if dist <= TOUCH * size:
             why = ("; this map's lift is discontinuous (it cuts the loop and lays pieces on each other): use a "
                    "continuous map" if mapped else "")

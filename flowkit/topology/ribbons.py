@@ -174,7 +174,7 @@ def edge_offset(rb: Ribbon, dist: float) -> float:
 def ribbon_parts(rb: Ribbon, threads: int | None = None, smooth: bool | None = None) -> dict:
     """Twist, writhe, linking with the edge and the Călugăreanu–White defect of a ribbon (plain dict)."""
     P = rb.points
-    wr, bound, dist, i, j = writhe_auto(P, threads)  # fast writhe (with a bound) from 4,000 points, fast linking from 20,000² pairs
+    wr, bound, dist, i, j = writhe_auto(P, threads)  # the fast sum (with a bound) from FAST_FROM points
     check_apart(dist, i, j, P, P, rb.curve.diameter(), "the ribbon's curve crosses itself")
     tw, turn = polygon_twist(P, rb.normals)
     eps = edge_offset(rb, dist)
