@@ -25,11 +25,12 @@ vanishes, the step grows to ``max_step`` and J goes uncontrolled (6 % off at the
 corners with no ``max_step``; 3e-8 with ``max_step=1``).
 
 Speed against ``method="flowmap"`` at equal tolerance (benchmarks/bench_ftle.py, one
-thread, latest run at load 1.0): on stf the default is faster (1.31x; position norm 1.58x);
-on the double gyre it is slower (0.79x; position norm 1.01x). The gyre's cost is its
-sin/cos calls, the same per step on both sides (LLVM already pairs sin and cos of one
-argument into sincos), so the variational step costs 1.1x the flow map's (four more
-moved numbers) and the full norm takes 1.34x its steps (41.7 against 31.1 per orbit at
+thread, load 1.0; figures vary by about 15 % between runs): on stf the default is faster
+(1.22-1.31x; position norm 1.58-1.63x); on the double gyre it is slower (0.65-0.79x;
+position norm 0.85-1.01x). The gyre's cost is its sin/cos calls, the same per step on
+both sides (LLVM already pairs sin and cos of one argument into sincos), so the
+variational step costs 1.1-1.15x the flow map's (four more numbers carried through the
+twelve stages) and the full norm takes 1.34x its steps (41.7 against 31.1 per orbit at
 rtol 1e-8). The flow map stays the option, not the default: its ridges are off by up to
 0.75 at 400x200.
 """
