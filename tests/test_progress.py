@@ -191,4 +191,5 @@ def test_interrupt_returns_the_finished_part_of_every_long_analysis(stf):
         child.kill()
     assert child.returncode == 0
     for name, data in results.items():
-        assert data["partial"] is True and "interrupted" in json.dumps(data), name
+        # the whole summary in the message: a rare failure here (1 in about 10 cold runs, once) left no trace
+        assert data["partial"] is True and "interrupted" in json.dumps(data), (name, data)
