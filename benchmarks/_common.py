@@ -13,7 +13,23 @@ def machine() -> dict:
     """What the numbers were measured on (load average included: the machine may be shared)."""
     load = os.getloadavg() if hasattr(os, "getloadavg") else None
     return {"cpus": os.cpu_count(), "python": platform.python_version(), "load_average": load,
-            "when": time.strftime("%Y-%m-%d %H:%M:%S")}
+            "when": time.strftime("%Y-%m-%d %H:%M:%S"), "vector_math": vector_math()}
+
+
+def vector_math() -> dict:
+    """Can numba vectorize sin/cos here? It needs an llvmlite built with Intel's short-vector
+    math library (SVML) *and* that library's runtime installed; either alone changes nothing."""
+    import importlib.metadata as md
+
+    import llvmlite.binding as ll
+    import numba
+
+    try:
+        runtime = md.version("intel-cmplr-lib-rt")
+    except md.PackageNotFoundError:
+        runtime = None
+    return {"llvmlite_has_svml": bool(ll.targets.has_svml()), "numba_using_svml": bool(numba.config.USING_SVML),
+            "intel_runtime": runtime}
 
 
 def save(name: str, data: dict) -> Path:

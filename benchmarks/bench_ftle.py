@@ -30,7 +30,7 @@ from pathlib import Path
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).parent))
-from _common import best_of, machine, save  # noqa: E402
+from _common import best_of, machine, save, vector_math  # noqa: E402
 
 import flowkit  # noqa: E402
 from flowkit.chaos import GridPlane, ftle_field  # noqa: E402
@@ -328,6 +328,10 @@ def equal_tolerance_main():
 
 def main():
     before = machine()["load_average"]
+    vm = vector_math()
+    print(f"vector sin/cos: llvmlite built with SVML {vm['llvmlite_has_svml']}, numba using it "
+          f"{vm['numba_using_svml']}, Intel runtime {vm['intel_runtime'] or 'not installed'} (trig flows stay scalar "
+          "unless the first two are True)")
     r = 0.3
     stf_flow, stf_plane = flowkit.flow("stf", rotation=r), GridPlane.coordinate("y", 0.0, None)
     stf = same_step_case("stf rotation=0.3, plane y=0", stf_flow, stf_plane, 2.0, 0.01,
