@@ -233,6 +233,25 @@ def test_non_solenoidal_user_flow_warns_with_its_divergence():
         flowkit.custom_flow(["x", "y", "z"])
 
 
+def test_polynomial_divergence_is_summed_exactly_without_compiling():
+    from flowkit.flows.custom import _parse_strings, _polynomial_divergence, sample_points
+
+    items = ["x**2 + a*y", "y*z + t*x", "-3*z"]
+    with pytest.warns(FlowkitNotice, match="not divergence-free"):
+        f = flowkit.custom_flow(items, params={"a": 1.5})
+    pts = sample_points(f, 64, np.random.default_rng(3))
+    div, scale = _polynomial_divergence(f, _parse_strings(items, ["a"]), pts)
+    # exact identity: div (x^2 + a y, y z + t x, -3 z) = 2 x + z - 3
+    np.testing.assert_allclose(div, np.abs(2 * pts[:, 0] + pts[:, 2] - 3), rtol=0, atol=1e-14)
+    np.testing.assert_allclose(div, np.abs(np.trace(f.gradient(pts), axis1=1, axis2=2)), rtol=0, atol=1e-13)
+    assert scale == pytest.approx(max(1.0, np.abs(f.gradient(pts)).max()))
+    # a solenoidal polynomial sums to exactly zero; anything else goes to the compiled gradient
+    solenoidal = ["2*z - 8*x*y", "11*x**2 + 3*y**2 + z**2 - 3", "-2*x + 2*y*z"]
+    g = flowkit.custom_flow(solenoidal, domain="ball")
+    assert g.family.structure["divergence_max"] == 0.0
+    assert _polynomial_divergence(g, _parse_strings(["sin(y)", "z", "x"], []), pts) is None
+
+
 # ---- bad input ---------------------------------------------------------------
 def test_unknown_flow_lists_what_exists():
     with pytest.raises(FlowkitError, match="unknown flow 'stff'.*Did you mean 'stf'.*abc"):

@@ -164,8 +164,10 @@ def custom_flow(
     -------
     Flow
         Compiled through the same kernels as the presets. Divergence is measured
-        at random points (``flow.family.structure["divergence_max"]``) and a
-        clearly non-solenoidal ``"flow"`` triggers a warning naming it.
+        at random points (``flow.family.structure["divergence_max"]``; for a
+        polynomial velocity from its exact divergence polynomial, so nothing is
+        compiled for it) and a clearly non-solenoidal ``"flow"`` triggers a
+        warning naming it.
     """
     from flowkit.flows.grammar import check_parameter_names, to_text
 
@@ -211,7 +213,7 @@ def custom_flow(
     else:
         fam = _callable_family(velocity, name, params, domain, period_fn, kind)
     flow = Flow(fam)
-    _measure_divergence(flow)
+    _measure_divergence(flow, exprs)
     return flow
 
 
@@ -252,6 +254,47 @@ def _callable_family(func, name, params, domain, period_fn, kind) -> FlowFamily:
     )
 
 
+def _polynomial_divergence(flow: Flow, exprs, pts: np.ndarray):
+    """(|div u|, gradient scale) at ``pts`` (t = 0) for a polynomial velocity, without compiling.
+
+    The divergence and gradient of a polynomial are polynomials: their monomials are
+    summed in numpy over the points. Returns None when a component is not a
+    polynomial in x, y, z (then the compiled gradient measures it).
+    """
+    if exprs is None:
+        return None
+    import sympy as sp
+
+    from flowkit.flows.codegen import T, X, Y, Z
+
+    values = {T: 0.0}
+    values.update({sp.Symbol(n, real=True): float(v) for n, v in zip(flow.family.param_names, flow.params)})
+    coords = (X, Y, Z)
+    polys = []
+    for e in exprs:
+        if not (isinstance(e, sp.Expr) and e.is_polynomial(*coords)):  # structural test: microseconds
+            return None
+        try:
+            poly = sp.Poly(e.xreplace(values), *coords)
+        except sp.PolynomialError:
+            return None
+        if poly.free_symbols - set(coords) or not all(c.is_number for c in poly.coeffs()):
+            return None
+        polys.append(poly)
+    # the divergence summed as a polynomial: exactly zero when the terms cancel
+    div = sum((p.diff(c) for p, c in zip(polys, coords)), sp.Poly(0, *coords))
+    scale = max(1.0, max(float(np.abs(_poly_values(p.diff(c), pts)).max()) for p in polys for c in coords))
+    return np.abs(_poly_values(div, pts)), scale
+
+
+def _poly_values(poly, pts: np.ndarray) -> np.ndarray:
+    """A sympy Poly in (x, y, z) at the rows of ``pts``: its monomials summed in numpy."""
+    out = np.zeros(pts.shape[0])
+    for (i, j, k), c in poly.terms():
+        out += float(c) * pts[:, 0] ** i * pts[:, 1] ** j * pts[:, 2] ** k
+    return out
+
+
 def sample_points(flow: Flow, n: int, rng: np.random.Generator) -> np.ndarray:
     """Random points inside the flow's domain (or a typical box for unbounded ones)."""
     if flow.domain == "ball":
@@ -265,12 +308,16 @@ def sample_points(flow: Flow, n: int, rng: np.random.Generator) -> np.ndarray:
     return (rng.random((n, 3)) - 0.5) * 4.0
 
 
-def _measure_divergence(flow: Flow) -> None:
+def _measure_divergence(flow: Flow, exprs=None) -> None:
     rng = np.random.default_rng(12345)
     pts = sample_points(flow, 256, rng)
-    g = flow.gradient(pts)
-    div = np.abs(np.trace(g, axis1=1, axis2=2))
-    scale = max(1.0, float(np.abs(g).max()))
+    measured = _polynomial_divergence(flow, exprs, pts)
+    if measured is None:
+        g = flow.gradient(pts)  # compiles the gradient (about 1 s for a new formula)
+        div = np.abs(np.trace(g, axis1=1, axis2=2))
+        scale = max(1.0, float(np.abs(g).max()))
+    else:
+        div, scale = measured
     dmax = float(div.max())
     if not np.isfinite(dmax):
         raise FlowDefinitionError(f"flow '{flow.name}' gives NaN or infinite gradients at ordinary points of its domain")
