@@ -70,6 +70,24 @@ def test_unknown_tags_and_kinds_are_refused(tmp_path):
         flowkit.load(bad)
 
 
+def test_saved_file_gets_the_mode_open_would_give_it(tmp_path):
+    # written through a private temporary file (mkstemp: 0600) and renamed; the result must
+    # still be readable by whoever the umask allows, as a file made by open() would be
+    import os
+    import stat
+
+    mask = os.umask(0o027)
+    try:
+        from flowkit.results import files
+
+        files._umask.cache_clear()
+        path = _probe().save(tmp_path / "shared.npz")
+        assert stat.S_IMODE(os.stat(path).st_mode) == 0o640
+    finally:
+        os.umask(mask)
+        files._umask.cache_clear()
+
+
 def test_save_checks_the_path_first(tmp_path):
     with pytest.raises(FlowkitError, match="does not exist"):
         _probe().save(tmp_path / "missing" / "x.npz")

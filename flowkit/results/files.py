@@ -14,6 +14,7 @@ where: finished work is never lost.
 
 from __future__ import annotations
 
+import functools
 import json
 import os
 import tempfile
@@ -60,10 +61,20 @@ def _write_atomic(path: Path, write: Callable[[Path], None]) -> None:
     tmp = Path(tmp)
     try:
         write(tmp)
+        # mkstemp makes the file private (0600); a result file gets the usual mode, as open() would give it
+        os.chmod(tmp, 0o666 & ~_umask())
         os.replace(tmp, path)
     finally:
         if tmp.exists():
             tmp.unlink()
+
+
+@functools.lru_cache(maxsize=1)
+def _umask() -> int:
+    """The process's umask (read once: setting it to read it is not thread-safe)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
 
 
 def _check_array(name: str, arr: np.ndarray, where: str) -> np.ndarray:
