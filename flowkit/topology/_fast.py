@@ -198,7 +198,8 @@ def near_rows(P, M, cut, rows, dmin, jmin, counts):
     """
     C, span, skey, order = _cells(M, cut)
     for i in prange(P.shape[0]):
-        rows[i], dmin[i], jmin[i], counts[i] = _near_row(P, M, i, P, M, C, i, span, skey, order, cut * cut, True)
+        k = np.int64(i)  # numba types the index uint64 in one lowering, int64 in another: two compiles of _near_row
+        rows[k], dmin[k], jmin[k], counts[k] = _near_row(P, M, k, P, M, C, k, span, skey, order, cut * cut, True)
 
 
 @njit(cache=True, fastmath=True, error_model="numpy", parallel=True)
@@ -223,5 +224,6 @@ def near_rows_two(P, MP, Q, MQ, cut, rows, dmin, jmin, counts):
     m = Q.shape[0]
     C, span, skey, order = _cells(np.concatenate((MQ, MP)), cut)
     for i in prange(P.shape[0]):
-        rows[i], dmin[i], jmin[i], counts[i] = _near_row(P, MP, i, Q, MQ, C, m + i, span, skey, order, cut * cut,
+        k = np.int64(i)  # one compile of _near_row, as in near_rows
+        rows[k], dmin[k], jmin[k], counts[k] = _near_row(P, MP, k, Q, MQ, C, m + k, span, skey, order, cut * cut,
                                                          False)
