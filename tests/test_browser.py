@@ -295,8 +295,11 @@ def test_crossing_direction_control_is_visible_and_redraws(lab_page):
     control = page.locator(".widget-toggle-buttons", has=page.locator("label", has_text="direction")).first
     control.scroll_into_view_if_needed()
     assert control.is_visible()
-    # the default is stated where the user looks: selected button and status line
-    assert control.locator("button.mod-active").inner_text().strip() == "both"
+    # the default is stated where the user looks: selected button and status line. Waited for:
+    # the buttons can be on the page a moment before their labels (one cold CI rehearsal read '')
+    from playwright.sync_api import expect
+
+    expect(control.locator("button.mod-active")).to_have_text("both", timeout=REDRAW_TIMEOUT * 1000)
     # (the status line states the direction after every full section; checked after the click below)
     before = _settled_pixels(page, REDRAW_TIMEOUT)
     control.locator("button", has_text="+").click()
